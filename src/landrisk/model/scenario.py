@@ -1,0 +1,69 @@
+"""A validated scenario: the values of every scalar key, and the text that describes it."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from types import MappingProxyType
+from typing import Any
+
+import numpy as np
+from numpy.typing import ArrayLike
+
+from landrisk.model.case import LandingCase, case_from_values
+from landrisk.model.schema import KEYS
+
+__all__ = ["Scenario"]
+
+
+@dataclass(frozen=True)
+class Scenario:
+    """One landing scenario as read and checked from a scenario file.
+
+    Attributes
+    ----------
+    values : Mapping[str, Any]
+        Every key of :data:`landrisk.model.schema.KEYS` with its value in the key's unit (``None`` for
+        an optional key not given). Read-only.
+    source : str
+        Where it was read from: a path, or ``"<demo>"`` for the embedded demo scenario.
+    text : str
+        The scenario file as read (before ``--set`` overrides), for the record of a run.
+    overrides : tuple of str
+        The ``--set`` assignments applied, as written.
+    """
+
+    values: Mapping[str, Any]
+    source: str = "<memory>"
+    text: str = ""
+    overrides: tuple[str, ...] = field(default_factory=tuple)
+
+    def __post_init__(self) -> None:
+        missing = set(KEYS) - set(self.values)
+        if missing:
+            raise ValueError(f"scenario lacks keys: {sorted(missing)}")
+        object.__setattr__(self, "values", MappingProxyType(dict(self.values)))
+
+    @property
+    def name(self) -> str:
+        """The scenario's short name."""
+        return str(self.values["scenario.name"])
+
+    def scalar_values(self) -> dict[str, Any]:
+        """The keys that hold numbers (those a sample may replace), with their values."""
+        return {k: v for k, v in self.values.items() if KEYS[k].scalar}
+
+    def case(self, overrides: Mapping[str, ArrayLike] | None = None) -> LandingCase:
+        """The solver's inputs, with any scalar key replaced by an array over landings.
+
+        Parameters
+        ----------
+        overrides : mapping, optional
+            Dotted key -> value or array of values (in the key's unit), e.g. Monte Carlo samples.
+        """
+        vals: dict[str, Any] = self.scalar_values()
+        for k, x in (overrides or {}).items():
+            if k not in vals:
+                raise KeyError(f"{k} is not a scalar key of the scenario")
+            vals[k] = np.asarray(x)
+        return case_from_values(vals)
