@@ -54,6 +54,8 @@ class ConfigError(LandriskError):
             parts.append(f"{self.file}:")
         if self.key is not None:
             parts.append(f"{self.key} = {self.value!r}:" if self.value is not None else f"{self.key}:")
+        elif self.value is not None:
+            parts.append(f"{self.value!r}:")
         parts.append(self.reason)
         text = " ".join(parts)
         if self.allowed:

@@ -25,14 +25,24 @@ from landrisk.physics import (
 __all__ = ["reference_ground_roll"]
 
 
-def reference_ground_roll(case: LandingCase, index: int = 0, rtol: float = 1e-12) -> dict[str, float]:
+def reference_ground_roll(
+    case: LandingCase, index: int = 0, rtol: float = 1e-12, position: float | None = None
+) -> dict[str, float]:
     """Free roll, braking roll and time to stop of landing ``index`` of ``case``, by solve_ivp (DOP853).
+
+    Parameters
+    ----------
+    position : float, optional
+        A distance past touchdown [m]; the ground speed there is returned as ``ground_speed_at``
+        (0 if the aircraft stops before it).
 
     Returns
     -------
     dict
-        ``free_roll_m``, ``braking_m``, ``time_to_stop_s`` and ``touchdown_speed`` [m/s].
+        ``free_roll_m``, ``braking_m``, ``time_to_stop_s``, ``touchdown_speed`` [m/s] and, with
+        ``position``, ``ground_speed_at`` [m/s].
     """
+    passed: list[float] = []
     c = case.broadcast().take(slice(index, index + 1))
     p = {f: float(np.asarray(getattr(c, f))[0]) for f in c.__dataclass_fields__ if f != "g"}
     g = c.g
@@ -60,12 +70,28 @@ def reference_ground_roll(case: LandingCase, index: int = 0, rtol: float = 1e-12
 
     stop.terminal = True  # type: ignore[attr-defined]
     opts = {"method": "DOP853", "rtol": rtol, "atol": 1e-12}
+    x0 = 0.0  # distance covered before the current integration
+
+    def at_position(_t: float, y: np.ndarray) -> float:
+        return x0 + y[0] - (np.inf if position is None else position)
+
+    def record(sol) -> None:
+        if position is not None and sol.t_events[-1].size:
+            passed.append(float(sol.y_events[-1][0][1] - w))
+
+    def done(out: dict[str, float]) -> dict[str, float]:
+        if position is not None:
+            out["ground_speed_at"] = passed[0] if passed else 0.0
+        return out
+
     t_f = p["reaction_time"]
     y0 = [0.0, v_td]
-    sol = solve_ivp(rhs(p["rolling_mu"], idle), (0.0, t_f), y0, events=stop, **opts)
+    sol = solve_ivp(rhs(p["rolling_mu"], idle), (0.0, t_f), y0, events=[stop, at_position], **opts)
+    record(sol)
     x_free, v_b, t = sol.y[0, -1], sol.y[1, -1], sol.t[-1]
-    if sol.status == 1:  # stopped before the brakes came on
-        return {"free_roll_m": x_free, "braking_m": 0.0, "time_to_stop_s": t, "touchdown_speed": v_td}
+    if sol.status == 1 and sol.t_events[0].size:  # stopped before the brakes came on
+        return done({"free_roll_m": x_free, "braking_m": 0.0, "time_to_stop_s": t, "touchdown_speed": v_td})
+    x0 = x_free
     y = [0.0, v_b]
     horizon = 1e5
     if p["use_reverse"] and v_b > p["reverse_cutoff_speed"]:
@@ -74,12 +100,16 @@ def reference_ground_roll(case: LandingCase, index: int = 0, rtol: float = 1e-12
             return y[1] - p["reverse_cutoff_speed"]
 
         stow.terminal = True  # type: ignore[attr-defined]
-        sol = solve_ivp(rhs(p["braking_mu"], rev), (t, t + horizon), y, events=[stop, stow], **opts)
+        sol = solve_ivp(rhs(p["braking_mu"], rev), (t, t + horizon), y, events=[stop, stow, at_position],
+                        **opts)
+        record(sol)
         y, t = list(sol.y[:, -1]), sol.t[-1]
         if sol.t_events[0].size:  # stopped with the reverser still out
-            return {"free_roll_m": x_free, "braking_m": y[0], "time_to_stop_s": t, "touchdown_speed": v_td}
-    sol = solve_ivp(rhs(p["braking_mu"], idle), (t, t + horizon), y, events=stop, **opts)
-    if sol.status != 1:
+            return done({"free_roll_m": x_free, "braking_m": y[0], "time_to_stop_s": t,
+                         "touchdown_speed": v_td})
+    sol = solve_ivp(rhs(p["braking_mu"], idle), (t, t + horizon), y, events=[stop, at_position], **opts)
+    record(sol)
+    if not sol.t_events[0].size:
         raise RuntimeError("reference integration did not reach a stop")
-    return {"free_roll_m": x_free, "braking_m": sol.y[0, -1], "time_to_stop_s": sol.t[-1],
-            "touchdown_speed": v_td}
+    return done({"free_roll_m": x_free, "braking_m": sol.y[0, -1], "time_to_stop_s": sol.t[-1],
+                 "touchdown_speed": v_td})

@@ -46,6 +46,8 @@ GAUSS_LEGENDRE_ORDER = 8
 #: landing from its own reaction time, so a landing's result never depends on the others in the call.
 RK4_STEPS = 4
 RK4_MAX_STEP = 1.0
+#: Step [s] for the rare free roll that crosses zero airspeed or the lift-off speed (a kink in the force).
+RK4_KINK_STEP = 0.002
 #: Landings evaluated together (keeps the temporaries in cache; results do not depend on it).
 CHUNK = 1 << 14
 
@@ -174,30 +176,87 @@ def _roll_integrals(
             thrust_per_mass=thrust,  # type: ignore[arg-type]
             drag_per_mass=f.drag, lift_per_mass=f.lift, mu=mu, g_cos=f.g_cos, g_sin=f.g_sin,
         )
-        # Largest acceleration on [lo, hi]: at an end, or at the vertex of a concave parabola.
-        a_max = np.maximum(a + lo * (b + lo * c), a + hi * (b + hi * c))
+        a_min, a_max = _extremes(lo, hi, a, b, c)
+        ok &= (a_max < 0) | ~used
+        i = slice(None) if used.all() else np.flatnonzero(used)
         with np.errstate(divide="ignore", invalid="ignore"):
-            vertex = -b / (2.0 * c)
-            inside = (c < 0) & (vertex > lo) & (vertex < hi)
-            a_max = np.where(inside, np.maximum(a_max, a - b * b / (4.0 * c)), a_max)
-            ok &= (a_max < 0) | ~used
-            # Quadrature only where the piece has length (all landings, or the few that need it).
-            i = slice(None) if used.all() else np.flatnonzero(used)
-            hw = half[i]
-            v = np.multiply.outer(hw, _GL_X)
-            v += mid[i, None]
-            q = v * c[i, None]
-            q += b[i, None]
-            q *= v
-            q += a[i, None]
-            np.reciprocal(q, out=q)  # 1 / a at the nodes (negative)
-            time[i] -= hw * (q @ _GL_W)
-            v -= headwind[i, None]
-            v *= q
-            dist[i] -= hw * (v @ _GL_W)
+            d, t = _quadrature(lo[i], hi[i], a[i], b[i], c[i], headwind[i], a_min[i], a_max[i])
+        dist[i] += d
+        time[i] += t
     dist = np.where(ok, dist, np.inf)
     time = np.where(ok, time, np.inf)
     return dist, time, ok
+
+
+def _extremes(lo: Array, hi: Array, a: Array, b: Array, c: Array) -> tuple[Array, Array]:
+    """Least and largest value of a + b V + c V^2 on [lo, hi] (the ends, and the vertex if inside)."""
+    a_lo = a + lo * (b + lo * c)
+    a_hi = a + hi * (b + hi * c)
+    low, high = np.minimum(a_lo, a_hi), np.maximum(a_lo, a_hi)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        vertex = -b / (2.0 * c)
+        a_v = a - b * b / (4.0 * c)
+    inside = (c != 0) & (vertex > lo) & (vertex < hi)
+    return np.where(inside & (c > 0), np.minimum(low, a_v), low), np.where(
+        inside & (c < 0), np.maximum(high, a_v), high
+    )
+
+
+#: A piece is bisected while |a| varies across it by more than this factor: the zero of a just beyond
+#: it would otherwise slow the convergence of the quadrature (Gauss-Legendre error ~ rho^(-2n), rho the
+#: Bernstein-ellipse parameter of the nearest pole).
+REFINE_RATIO = 4.0
+_MAX_REFINE = 40
+
+
+def _quadrature(
+    lo: Array, hi: Array, a: Array, b: Array, c: Array, w: Array, a_min: Array, a_max: Array
+) -> tuple[Array, Array]:
+    """int (V - w)/(-a) dV and int dV/(-a) over [lo, hi] with a = a + b V + c V^2 < 0 on it.
+
+    Gauss-Legendre on each piece; pieces where |a| changes by more than REFINE_RATIO are bisected
+    (only those landings). The nodes are summed one by one, and a landing's pieces in a fixed order, so
+    that its result does not depend on the other landings evaluated with it.
+    """
+    n = lo.size
+    dist = np.zeros(n)
+    time = np.zeros(n)
+    idx = np.arange(n)
+    for depth in range(_MAX_REFINE):
+        fine = (a_min >= REFINE_RATIO * a_max) | (a_max >= 0) | (depth == _MAX_REFINE - 1)
+        if fine.all():
+            d, t = _gauss_legendre(lo, hi, a[idx], b[idx], c[idx], w[idx])
+            if depth == 0:
+                return d, t
+            dist += np.bincount(idx, d, minlength=n)
+            time += np.bincount(idx, t, minlength=n)
+            break
+        if fine.any():
+            j = idx[fine]
+            d, t = _gauss_legendre(lo[fine], hi[fine], a[j], b[j], c[j], w[j])
+            dist += np.bincount(j, d, minlength=n)
+            time += np.bincount(j, t, minlength=n)
+        keep = ~fine
+        idx2 = idx[keep]
+        mid = 0.5 * (lo[keep] + hi[keep])
+        idx = np.concatenate([idx2, idx2])
+        lo = np.concatenate([lo[keep], mid])
+        hi = np.concatenate([mid, hi[keep]])
+        a_min, a_max = _extremes(lo, hi, a[idx], b[idx], c[idx])
+    return dist, time
+
+
+def _gauss_legendre(lo: Array, hi: Array, a: Array, b: Array, c: Array, w: Array) -> tuple[Array, Array]:
+    half = 0.5 * (hi - lo)
+    mid = 0.5 * (hi + lo)
+    d_sum = np.zeros_like(half)
+    t_sum = np.zeros_like(half)
+    for x_j, w_j in zip(_GL_X, _GL_W, strict=True):
+        v = mid + half * x_j
+        inv = w_j / (a + v * (b + v * c))  # weight / a at the node (negative)
+        t_sum -= inv
+        d_sum -= (v - w) * inv
+    return half * d_sum, half * t_sum
 
 
 def _free_roll_rk4(
@@ -220,12 +279,15 @@ def _free_roll_rk4(
     if left.any():
         i = np.flatnonzero(left)
         fi = _take_forces(f, i)
-        v[i], x[i] = _rk4(v0[i], duration[i], headwind[i], lambda u: _accel(u, fi, mu[i], fi.idle))
+        v[i], x[i] = _rk4(v0[i], duration[i], headwind[i], lambda u: _accel(u, fi, mu[i], fi.idle),
+                          max_step=RK4_KINK_STEP)
     return v, x
 
 
-def _rk4(v0: Array, duration: Array, headwind: Array, accel) -> tuple[Array, Array]:
-    steps = np.maximum(RK4_STEPS, np.ceil(duration / RK4_MAX_STEP)).astype(int)
+def _rk4(
+    v0: Array, duration: Array, headwind: Array, accel, max_step: float = RK4_MAX_STEP
+) -> tuple[Array, Array]:
+    steps = np.maximum(RK4_STEPS, np.ceil(duration / max_step)).astype(int)
     h = duration / steps
     v = v0.copy()
     x = np.zeros_like(v0)
@@ -356,7 +418,7 @@ def _solve_chunk(c: LandingCase) -> dict[str, NDArray]:
         end_speed = np.where(cannot, v_b - w, end_speed)  # never stops: at least the brake speed
     return {
         "approach_m": approach, "flare_m": flare, "air_distance_m": air, "free_roll_m": x_free,
-        "braking_m": brake, "total_m": total, "lda_m": c.lda + 0.0 * total, "margin_m": margin,
+        "braking_m": brake, "total_m": total, "lda_m": c.lda.copy(), "margin_m": margin,
         "stall_speed": vs, "touchdown_speed": v_td, "touchdown_ground_speed": v_td - w,
         "brake_speed": v_b, "time_to_stop_s": t_free + t_brake, "overrun": over,
         "runway_end_ground_speed": end_speed, "beyond_end_m": beyond,

@@ -1,0 +1,102 @@
+"""The ``landrisk`` command line. It parses options, calls :mod:`landrisk.api` and prints."""
+
+from __future__ import annotations
+
+import json
+import sys
+import warnings
+from collections.abc import Callable
+from functools import wraps
+from typing import Any
+
+import click
+
+from landrisk import CAUTION, __version__
+from landrisk.errors import LandriskError, LandriskWarning
+
+__all__ = ["main"]
+
+_HELP_CAUTION = (
+    "\b\nCAUTION: an analysis aid, not an operational or certified performance source. The aircraft\n"
+    "flight manual, the operator's approved data, local regulations and licensed practice govern."
+)
+
+
+def _reported(fn: Callable[..., Any]) -> Callable[..., Any]:
+    """Run a command, printing landrisk's warnings and errors as one line each (errors exit 2)."""
+
+    @wraps(fn)
+    def run(*args: Any, **kwargs: Any) -> Any:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always", LandriskWarning)
+            try:
+                result = fn(*args, **kwargs)
+            except LandriskError as exc:
+                _print_warnings(caught)
+                click.echo(f"error: {exc}", err=True)
+                sys.exit(2)
+        _print_warnings(caught)
+        return result
+
+    return run
+
+
+def _print_warnings(caught: list[warnings.WarningMessage]) -> None:
+    for w in caught:
+        if issubclass(w.category, LandriskWarning):
+            click.echo(f"warning: {w.message}", err=True)
+
+
+_set_option = click.option(
+    "--set", "overrides", multiple=True, metavar="KEY=VALUE",
+    help='Override one scalar of the scenario, e.g. --set runway.braking_mu=0.2 or '
+         "--set 'runway.lda=\"6500 ft\"'. Repeatable.",
+)
+_config_argument = click.argument("config", required=False, type=click.Path(dir_okay=False))
+
+
+@click.group(help=f"""landrisk: how likely is a landing to overrun the runway, and why.
+
+Every command runs on the embedded, invented demo scenario when no CONFIG file is given.
+
+{_HELP_CAUTION}""")
+@click.version_option(__version__, prog_name="landrisk")
+def main() -> None:
+    """Entry point of the console script."""
+
+
+@main.command(epilog=_HELP_CAUTION)
+@_config_argument
+@_set_option
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of the table.")
+@_reported
+def solve(config: str | None, overrides: tuple[str, ...], as_json: bool) -> None:
+    """Deterministic landing distance of one landing at the scenario's nominal inputs.
+
+    Prints the air distance, free roll, braking roll and total in m and ft, the stall and touchdown
+    speeds in kt, the landing distance available and the margin.
+    """
+    from landrisk import api, report
+
+    landing = api.solve(api.load(config, overrides))
+    if as_json:
+        click.echo(json.dumps(api.solve_record(landing), indent=2))
+    else:
+        click.echo(report.render_solve(landing))
+
+
+@main.command(epilog=_HELP_CAUTION)
+@click.argument("path", type=click.Path(dir_okay=False))
+@click.option("--force", is_flag=True, help="Replace the file if it exists.")
+@_reported
+def init(path: str, force: bool) -> None:
+    """Write a commented starter scenario file to PATH (a copy of the invented demo)."""
+    from landrisk import api
+
+    written = api.write_starter(path, force=force)
+    click.echo(f"wrote {written}; edit it, then run: landrisk solve {written}")
+    click.echo(CAUTION)
+
+
+if __name__ == "__main__":  # pragma: no cover
+    main()
