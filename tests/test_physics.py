@@ -72,7 +72,8 @@ def test_air_distance_with_wind_is_air_distance_minus_wind_times_time() -> None:
 
 def test_signed_aerodynamic_forces_reverse_with_the_airflow() -> None:
     # DESIGN.md: forces use V|V| so that a tailwind at the end of the roll pushes the aircraft forward.
-    assert drag_force(-10.0, 1.2, 100.0, 0.05, 0.04, 0.5, 0.3) == -drag_force(10.0, 1.2, 100.0, 0.05, 0.04, 0.5, 0.3)
+    args = (1.2, 100.0, 0.05, 0.04, 0.5, 0.3)
+    assert drag_force(-10.0, *args) == -drag_force(10.0, *args)
     assert lift_force(-10.0, 1.2, 100.0, 0.5) < 0 < lift_force(10.0, 1.2, 100.0, 0.5)
 
 

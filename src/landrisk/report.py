@@ -43,7 +43,8 @@ def render_solve(landing: SingleLanding) -> str:
         _m_ft("braking roll", landing.braking_m),
         _m_ft("total landing distance", landing.total_m),
         _m_ft("landing distance available", landing.lda_m),
-        _m_ft("margin (LDA - total)", landing.margin_m, f"({100 * landing.margin_m / landing.lda_m:.1f} % of LDA)"),
+        _m_ft("margin (LDA - total)", landing.margin_m,
+              f"({100 * landing.margin_m / landing.lda_m:.1f} % of LDA)"),
         "",
         "Speeds (true airspeed unless stated)",
         _kt("stall V_S", landing.stall_speed),
@@ -64,7 +65,8 @@ def render_solve(landing: SingleLanding) -> str:
     d = landing.derived
     lines += [
         f"Inputs used: density {d['density_kg_m3']:.4f} kg/m^3, rolling mu {d['rolling_mu']:.3f}, "
-        f"braking mu {d['braking_mu']:.3f}, headwind {convert(v['conditions.headwind'], 'm/s', 'kt'):.1f} kt, "
+        f"braking mu {d['braking_mu']:.3f}, "
+        f"headwind {convert(v['conditions.headwind'], 'm/s', 'kt'):.1f} kt, "
         f"reverse thrust {'used' if v['procedure.use_reverse'] else 'not used'}.",
         "",
         CAUTION,
