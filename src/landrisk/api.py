@@ -11,7 +11,6 @@
 from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
-from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -24,7 +23,7 @@ from landrisk.errors import SolveError
 from landrisk.io import load_scenario
 from landrisk.io.config import demo_text
 from landrisk.io.output import write_text_new
-from landrisk.model import KEYS, LandingResult, Scenario, solve_landings, solve_one
+from landrisk.model import KEYS, LandingResult, Scenario, SingleLanding, solve_landings, solve_one
 
 __all__ = ["SingleLanding", "load", "solve", "solve_many", "solve_record", "write_starter"]
 
@@ -32,31 +31,6 @@ __all__ = ["SingleLanding", "load", "solve", "solve_many", "solve_record", "writ
 def load(path: str | Path | None = None, overrides: Iterable[str] = ()) -> Scenario:
     """Read a scenario file (``None``: the embedded demo) with ``KEY=VALUE`` overrides."""
     return load_scenario(path, overrides)
-
-
-@dataclass(frozen=True)
-class SingleLanding:
-    """One landing's phases [m], speeds [m/s] and time [s], with the scenario it came from."""
-
-    scenario: Scenario
-    approach_m: float
-    flare_m: float
-    air_distance_m: float
-    free_roll_m: float
-    braking_m: float
-    total_m: float
-    lda_m: float
-    margin_m: float
-    stall_speed: float
-    touchdown_speed: float
-    touchdown_ground_speed: float
-    brake_speed: float
-    time_to_stop_s: float
-    overrun: bool
-    runway_end_ground_speed: float
-    beyond_end_m: float
-    stopped_in_free_roll: bool
-    derived: Mapping[str, float]
 
 
 def solve(scenario: Scenario) -> SingleLanding:

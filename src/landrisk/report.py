@@ -2,13 +2,9 @@
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
-
 from landrisk import CAUTION, __version__
+from landrisk.model import SingleLanding
 from landrisk.units import convert
-
-if TYPE_CHECKING:
-    from landrisk.api import SingleLanding
 
 __all__ = ["render_solve"]
 

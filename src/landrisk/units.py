@@ -74,7 +74,7 @@ def _parse(text: str, unit: str, difference: bool) -> float:
         return float(q)
     if str(q.units) == "dimensionless":  # no unit written: the key's own unit
         return float(q.magnitude)
-    if difference and any(name in str(q.units) for name in _OFFSET_UNITS):
+    if difference and str(q.units) in _OFFSET_UNITS:
         raise UnitError(
             f"{text!r} is an absolute temperature; write a temperature difference as '10 K' or "
             "'10 delta_degC'"

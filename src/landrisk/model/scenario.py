@@ -13,7 +13,7 @@ from numpy.typing import ArrayLike
 from landrisk.model.case import LandingCase, case_from_values
 from landrisk.model.schema import KEYS
 
-__all__ = ["Scenario"]
+__all__ = ["Scenario", "SingleLanding"]
 
 
 @dataclass(frozen=True)
@@ -67,3 +67,28 @@ class Scenario:
                 raise KeyError(f"{k} is not a scalar key of the scenario")
             vals[k] = np.asarray(x)
         return case_from_values(vals)
+
+
+@dataclass(frozen=True)
+class SingleLanding:
+    """One landing's phases [m], speeds [m/s] and time [s], with the scenario it came from."""
+
+    scenario: Scenario
+    approach_m: float
+    flare_m: float
+    air_distance_m: float
+    free_roll_m: float
+    braking_m: float
+    total_m: float
+    lda_m: float
+    margin_m: float
+    stall_speed: float
+    touchdown_speed: float
+    touchdown_ground_speed: float
+    brake_speed: float
+    time_to_stop_s: float
+    overrun: bool
+    runway_end_ground_speed: float
+    beyond_end_m: float
+    stopped_in_free_roll: bool
+    derived: Mapping[str, float]

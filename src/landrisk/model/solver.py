@@ -114,7 +114,7 @@ def _forces(c: LandingCase) -> _Forces:
     idle = (c.idle_t0 / c.mass, c.idle_t1 / c.mass, c.idle_t2 / c.mass)
     rev = (c.reverse_t0 / c.mass, c.reverse_t1 / c.mass, c.reverse_t2 / c.mass)
     use = c.use_reverse
-    with np.errstate(divide="ignore"):
+    with np.errstate(divide="ignore", over="ignore"):
         lift_off = np.where(lift > 0, np.sqrt(g_cos / np.where(lift > 0, lift, 1.0)), np.inf)
     return _Forces(
         drag=q * cd,

@@ -1,0 +1,25 @@
+"""Project rules checked in the test run: layering of imports and lint."""
+
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+def test_import_layers() -> None:
+    # import-linter contracts in pyproject.toml: physics <- model <- (io, report) <- api <- cli.
+    from importlinter.cli import lint_imports
+
+    assert lint_imports(config_filename=str(ROOT / "pyproject.toml"), no_cache=True, no_logo=True) == 0
+
+
+def test_ruff_is_clean() -> None:
+    ruff = shutil.which("ruff") or shutil.which("ruff", path=str(Path(sys.executable).parent))
+    if ruff is None:
+        pytest.fail("ruff is part of the test extra and must be installed")
+    out = subprocess.run([ruff, "check", str(ROOT)], capture_output=True, text=True, check=False)
+    assert out.returncode == 0, out.stdout + out.stderr
