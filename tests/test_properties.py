@@ -14,20 +14,26 @@ BASE = replace(anderson_example_6_7(), g=9.80665)
 
 @st.composite
 def landings(draw) -> LandingCase:
-    """Landings with thrust, reverse, wind, slope and friction drawn over plausible ranges."""
+    """Landings with thrust, reverse, wind, slope and friction drawn over plausible ranges.
+
+    Idle thrust stays below 2 % of the weight and braking friction above 0.08, so forward thrust is
+    less than half the braking friction. Beyond that, physics reverses the mass effect: with distance
+    ~ m^2 / (mu g m - T), a heavier aircraft stops shorter when T/m > mu g / 2.
+    """
     rolling = draw(st.floats(0.01, 0.08))
     reverse = draw(st.booleans())
+    mass = BASE.mass * draw(st.floats(0.5, 1.3))
     return replace(
         BASE,
-        mass=BASE.mass * draw(st.floats(0.5, 1.3)),
+        mass=mass,
         density=draw(st.floats(0.9, 1.3)),
         headwind=draw(st.floats(-10.0, 15.0)),
         slope_angle=np.arctan(draw(st.floats(-0.02, 0.02))),
         rolling_mu=rolling,
-        braking_mu=draw(st.floats(max(rolling, 0.08), 0.6)),
+        braking_mu=draw(st.floats(max(rolling + 0.03, 0.08), 0.6)),  # brakes add friction
         reaction_time=draw(st.floats(0.0, 4.0)),
         cl_ground=draw(st.floats(0.0, 0.5)),
-        idle_t0=draw(st.floats(0.0, 6_000.0)),
+        idle_t0=draw(st.floats(0.0, 0.02)) * mass * BASE.g,
         idle_t1=-draw(st.floats(0.0, 20.0)),
         use_reverse=reverse,
         reverse_t0=-draw(st.floats(0.0, 50_000.0)),

@@ -22,6 +22,7 @@ the normal force is held at zero until it returns (no friction meanwhile) and th
 from __future__ import annotations
 
 from dataclasses import dataclass, fields
+from itertools import pairwise
 
 import numpy as np
 from numpy.typing import NDArray
@@ -44,8 +45,8 @@ __all__ = ["GAUSS_LEGENDRE_ORDER", "RK4_STEPS", "LandingResult", "solve_landings
 GAUSS_LEGENDRE_ORDER = 8
 #: Least number of Runge-Kutta steps over the free roll, and the longest step [s]. The count is set per
 #: landing from its own reaction time, so a landing's result never depends on the others in the call.
-RK4_STEPS = 4
-RK4_MAX_STEP = 1.0
+RK4_STEPS = 3
+RK4_MAX_STEP = 1.5
 #: Step [s] for the rare free roll that crosses zero airspeed or the lift-off speed (a kink in the force).
 RK4_KINK_STEP = 0.002
 #: Landings evaluated together (keeps the temporaries in cache; results do not depend on it).
@@ -141,13 +142,28 @@ def _braking_accel(v: Array, f: _Forces, mu: Array) -> Array:
     return _accel(v, f, mu, thrust)  # type: ignore[arg-type]
 
 
-def _roll_integrals(
-    v_lo: Array, v_hi: Array, headwind: Array, f: _Forces, mu: Array, thrust_hi: Thrust, switch: Array
-) -> tuple[Array, Array, NDArray[np.bool_]]:
-    """Distance and time to slow from airspeed ``v_hi`` to ``v_lo``, and whether a < 0 throughout.
+@dataclass(frozen=True)
+class _Piece:
+    """A stretch of airspeed [lo, hi] on which a = a + b V + c V^2, for the landings ``rows`` only."""
 
-    ``thrust_hi`` acts above ``switch``, idle thrust below. The range is split at the switch speed, at
-    zero airspeed and at the lift-off speed; each piece is integrated by Gauss-Legendre quadrature.
+    rows: NDArray[np.intp] | slice  # the landings concerned (a slice for all of them)
+    used: NDArray[np.bool_]  # of those, the ones for which the piece has length
+    lo: Array
+    hi: Array
+    a: Array
+    b: Array
+    c: Array
+    a_min: Array
+    a_max: Array
+
+
+def _pieces(
+    v_lo: Array, v_hi: Array, f: _Forces, mu: Array, thrust_hi: Thrust, switch: Array
+) -> list[_Piece]:
+    """Split [v_lo, v_hi] where the force law is not smooth, lowest piece first.
+
+    ``thrust_hi`` acts above ``switch``, idle thrust below. Break points: zero airspeed, the switch speed
+    and the lift-off speed. Each piece holds only the landings for which it has length.
     """
     # Break points in increasing order: zero airspeed <= the switch speed (>= 0; without a switch, zero
     # again) and the lift-off speed (> 0), which may fall either side of the switch; then clipped.
@@ -159,30 +175,50 @@ def _roll_integrals(
         np.clip(np.maximum(switch_break, f.lift_off_speed), v_lo, v_hi),
         v_hi,
     ]
+    pieces = []
+    for lo, hi in pairwise(edges):
+        used = hi > lo
+        count = int(np.count_nonzero(used))
+        if count == 0:
+            continue
+        rows: NDArray[np.intp] | slice = slice(None)
+        if count < lo.size // 2:  # few landings: work on those only; otherwise on all, masked
+            rows = np.flatnonzero(used)
+            used = np.ones(count, dtype=bool)
+            lo, hi = lo[rows], hi[rows]
+            fr, mur, sw = _take_forces(f, rows), mu[rows], switch[rows]
+            th = tuple(x[rows] for x in thrust_hi)
+        else:
+            fr, mur, sw, th = f, mu, switch, thrust_hi
+        mid = 0.5 * (hi + lo)
+        thrust = tuple(np.where(mid > sw, h, i) for h, i in zip(th, fr.idle, strict=True))
+        a, b, c = quadratic_acceleration_coefficients(
+            airflow_sign=np.where(mid >= 0, 1.0, -1.0),
+            wheels_loaded=fr.g_cos - fr.lift * mid * np.abs(mid) > 0,
+            thrust_per_mass=thrust,  # type: ignore[arg-type]
+            drag_per_mass=fr.drag, lift_per_mass=fr.lift, mu=mur, g_cos=fr.g_cos, g_sin=fr.g_sin,
+        )
+        a_min, a_max = _extremes(lo, hi, a, b, c)
+        pieces.append(_Piece(rows, used, lo, hi, a, b, c, a_min, a_max))
+    return pieces
+
+
+def _roll_integrals(
+    v_lo: Array, v_hi: Array, headwind: Array, f: _Forces, mu: Array, thrust_hi: Thrust, switch: Array
+) -> tuple[Array, Array, NDArray[np.bool_]]:
+    """Distance and time to slow from airspeed ``v_hi`` to ``v_lo``, and whether a < 0 throughout.
+
+    The range is split by :func:`_pieces`; each piece is integrated by :func:`_quadrature`.
+    """
     dist = np.zeros_like(v_lo)
     time = np.zeros_like(v_lo)
     ok = np.ones(v_lo.shape, dtype=bool)
-    for j in range(len(edges) - 1):
-        lo, hi = edges[j], edges[j + 1]
-        half = 0.5 * (hi - lo)
-        used = half > 0
-        if not used.any():
-            continue
-        mid = 0.5 * (hi + lo)
-        thrust = tuple(np.where(mid > switch, h, i) for h, i in zip(thrust_hi, f.idle, strict=True))
-        a, b, c = quadratic_acceleration_coefficients(
-            airflow_sign=np.where(mid >= 0, 1.0, -1.0),
-            wheels_loaded=f.g_cos - f.lift * mid * np.abs(mid) > 0,
-            thrust_per_mass=thrust,  # type: ignore[arg-type]
-            drag_per_mass=f.drag, lift_per_mass=f.lift, mu=mu, g_cos=f.g_cos, g_sin=f.g_sin,
-        )
-        a_min, a_max = _extremes(lo, hi, a, b, c)
-        ok &= (a_max < 0) | ~used
-        i = slice(None) if used.all() else np.flatnonzero(used)
+    for p in _pieces(v_lo, v_hi, f, mu, thrust_hi, switch):
+        ok[p.rows] &= (p.a_max < 0) | ~p.used
         with np.errstate(divide="ignore", invalid="ignore"):
-            d, t = _quadrature(lo[i], hi[i], a[i], b[i], c[i], headwind[i], a_min[i], a_max[i])
-        dist[i] += d
-        time[i] += t
+            d, t = _quadrature(p.lo, p.hi, p.a, p.b, p.c, headwind[p.rows], p.a_min, p.a_max)
+        dist[p.rows] += np.where(p.used, d, 0.0)
+        time[p.rows] += np.where(p.used, t, 0.0)
     dist = np.where(ok, dist, np.inf)
     time = np.where(ok, time, np.inf)
     return dist, time, ok
@@ -225,9 +261,9 @@ def _quadrature(
     for depth in range(_MAX_REFINE):
         fine = (a_min >= REFINE_RATIO * a_max) | (a_max >= 0) | (depth == _MAX_REFINE - 1)
         if fine.all():
-            d, t = _gauss_legendre(lo, hi, a[idx], b[idx], c[idx], w[idx])
             if depth == 0:
-                return d, t
+                return _gauss_legendre(lo, hi, a, b, c, w)
+            d, t = _gauss_legendre(lo, hi, a[idx], b[idx], c[idx], w[idx])
             dist += np.bincount(idx, d, minlength=n)
             time += np.bincount(idx, t, minlength=n)
             break
@@ -344,17 +380,37 @@ def _newton(
 def _speed_at_braking_distance(target: Array, v_top: Array, w: Array, f: _Forces, mu: Array) -> Array:
     """Airspeed V in [w, v_top] from which the braking distance to the stop equals ``target``.
 
-    Newton iteration on D(V) - target, D increasing in V with D'(V) = (V - w) / (-a(V)).
+    Walks up the pieces of the braking roll from the stop; in the piece that holds the point, Newton
+    iteration on its partial integral, int_lo^V (u - w)/(-a(u)) du, whose derivative is (V - w)/(-a(V)).
     """
+    remaining = target.copy()
+    speed = v_top.copy()  # if round-off leaves the point above the last piece: the brake speed
+    open_ = np.ones(target.shape, dtype=bool)
+    for p in _pieces(w, v_top, f, mu, f.braking_thrust, f.switch):
+        p = _Piece(np.arange(w.size)[p.rows], p.used, p.lo, p.hi, p.a, p.b, p.c, p.a_min, p.a_max)
+        ww = w[p.rows]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            d, _ = _quadrature(p.lo, p.hi, p.a, p.b, p.c, ww, p.a_min, p.a_max)
+        d = np.where(p.used, d, 0.0)
+        here = open_[p.rows] & p.used & (d >= remaining[p.rows])
+        passing = open_[p.rows] & ~here
+        remaining[p.rows[passing]] -= d[passing]
+        if here.any():
+            k = np.flatnonzero(here)
+            lo, hi, a, b, c, wk = p.lo[k], p.hi[k], p.a[k], p.b[k], p.c[k], ww[k]
+            rem = remaining[p.rows[k]]
 
-    def residual(v: Array, i: NDArray[np.intp]) -> tuple[Array, Array]:
-        fi = _take_forces(f, i)
-        d, _, _ = _roll_integrals(w[i], v, w[i], fi, mu[i], fi.braking_thrust, fi.switch)
-        return d - target[i], (v - w[i]) / -_braking_accel(v, fi, mu[i])
+            def residual(v: Array, j: NDArray[np.intp], lo=lo, a=a, b=b, c=c, wk=wk, rem=rem):
+                a_min, a_max = _extremes(lo[j], v, a[j], b[j], c[j])
+                with np.errstate(divide="ignore", invalid="ignore"):
+                    part, _ = _quadrature(lo[j], v, a[j], b[j], c[j], wk[j], a_min, a_max)
+                return part - rem[j], (v - wk[j]) / -(a[j] + v * (b[j] + v * c[j]))
 
-    a_stop = np.maximum(-_braking_accel(w, f, mu), 1e-6)
-    v0 = np.clip(w + np.sqrt(2.0 * a_stop * target), w, v_top)
-    return _newton(residual, v0, w, v_top, target)
+            decel = np.maximum(-(a + lo * (b + lo * c)), 1e-9)
+            v0 = np.clip(wk + np.sqrt((lo - wk) ** 2 + 2.0 * decel * rem), lo, hi)
+            speed[p.rows[k]] = _newton(residual, v0, lo, hi, rem)
+            open_[p.rows[k]] = False
+    return speed
 
 
 def _speed_at_free_roll_distance(
@@ -411,12 +467,12 @@ def _solve_chunk(c: LandingCase) -> dict[str, NDArray]:
     total = air + x_free + brake
     margin = c.lda - total
     over = total > c.lda
-    end_speed = np.zeros_like(total)
+    # Ground speed at the runway end: filled in afterwards for all overruns of the call together.
+    # A landing that never stops passes the end at least at its brake-application ground speed.
+    end_speed = np.where(cannot, v_b - w, 0.0)
     beyond = np.where(over, total - c.lda, 0.0)
-    if over.any():
-        _overrun_speeds(c, f, over & ~cannot, air, x_free, brake, v_b, v_td, t_free, end_speed)
-        end_speed = np.where(cannot, v_b - w, end_speed)  # never stops: at least the brake speed
     return {
+        "_free_roll_time": t_free,
         "approach_m": approach, "flare_m": flare, "air_distance_m": air, "free_roll_m": x_free,
         "braking_m": brake, "total_m": total, "lda_m": c.lda.copy(), "margin_m": margin,
         "stall_speed": vs, "touchdown_speed": v_td, "touchdown_ground_speed": v_td - w,
@@ -426,16 +482,16 @@ def _solve_chunk(c: LandingCase) -> dict[str, NDArray]:
     }
 
 
-def _overrun_speeds(
-    c: LandingCase, f: _Forces, over: NDArray[np.bool_], air: Array, x_free: Array, brake: Array,
-    v_b: Array, v_td: Array, t_free: Array, out: Array,
-) -> None:
-    """Fill ``out`` with the ground speed at the runway end for the overrunning landings."""
+def _overrun_speeds(c: LandingCase, r: dict[str, NDArray]) -> Array:
+    """Ground speed at the runway end of overrunning landings ``c`` with their chunk results ``r``."""
+    f = _forces(c)
     w = c.headwind
+    air, x_free, brake = r["air_distance_m"], r["free_roll_m"], r["braking_m"]
+    v_b, v_td = r["brake_speed"], r["touchdown_speed"]
+    out = np.zeros_like(w)
     excess = air + x_free + brake - c.lda  # distance still to go at the runway end
-    in_braking = over & (excess <= brake)
-    in_free = over & ~in_braking & (excess <= brake + x_free)
-    in_air = over & ~in_braking & ~in_free
+    in_braking = excess <= brake
+    in_free = ~in_braking & (excess <= brake + x_free)
     if in_braking.any():
         i = np.flatnonzero(in_braking)
         v = _speed_at_braking_distance(excess[i], v_b[i], w[i], _take_forces(f, i), c.braking_mu[i])
@@ -443,11 +499,13 @@ def _overrun_speeds(
     if in_free.any():
         i = np.flatnonzero(in_free)
         v = _speed_at_free_roll_distance(
-            c.lda[i] - air[i], t_free[i], v_td[i], w[i], _take_forces(f, i), c.rolling_mu[i]
+            c.lda[i] - air[i], r["_free_roll_time"][i], v_td[i], w[i], _take_forces(f, i), c.rolling_mu[i]
         )
         out[i] = v - w[i]
     # Touchdown beyond the runway end: the aircraft passes it in the air at about its touchdown speed.
+    in_air = ~in_braking & ~in_free
     out[in_air] = (v_td - w)[in_air]
+    return out
 
 
 def solve_landings(case: LandingCase) -> LandingResult:
@@ -471,6 +529,8 @@ def solve_landings(case: LandingCase) -> LandingResult:
     """
     full = case.broadcast()
     n = full.size
+    if n == 0:
+        raise ValueError("no landings to solve")
     out: dict[str, NDArray] = {}
     for start in range(0, n, CHUNK):
         part = _solve_chunk(full.take(slice(start, start + CHUNK)))
@@ -478,6 +538,11 @@ def solve_landings(case: LandingCase) -> LandingResult:
             out = {k: np.empty(n, dtype=v.dtype) for k, v in part.items()}
         for k, v in part.items():
             out[k][start : start + CHUNK] = v
+    overruns = np.flatnonzero(out["overrun"] & ~out["cannot_stop"])
+    for start in range(0, overruns.size, CHUNK):
+        i = overruns[start : start + CHUNK]
+        out["runway_end_ground_speed"][i] = _overrun_speeds(full.take(i), {k: v[i] for k, v in out.items()})
+    del out["_free_roll_time"]
     return LandingResult(**out)
 
 
