@@ -23,3 +23,14 @@ def test_ruff_is_clean() -> None:
         pytest.fail("ruff is part of the test extra and must be installed")
     out = subprocess.run([ruff, "check", str(ROOT)], capture_output=True, text=True, check=False)
     assert out.returncode == 0, out.stdout + out.stderr
+
+
+def test_readme_documents_every_key_and_ci_runs_its_test_command() -> None:
+    from landrisk.model import KEYS
+
+    readme = (ROOT / "README.md").read_text(encoding="utf-8")
+    for key in KEYS:
+        assert f"| `{key}` |" in readme, key
+    test_command = next(line for line in readme.splitlines() if "pytest" in line and "pip install" in line)
+    assert test_command.strip() in (ROOT / ".ci" / "run").read_text(encoding="utf-8")
+    assert "not an operational or certified performance source" in readme
