@@ -152,6 +152,7 @@ def test_lift_above_weight_is_flagged_in_arrays_and_refused_alone(anderson) -> N
     lifted = replace(anderson, cl_ground=2.0)
     res = solve_landings(replace(lifted, braking_mu=np.array([0.3, 0.4])))
     assert res.lift_exceeds_weight.all()
+    assert res.flag_counts()["lift_exceeds_weight"] == 2
     assert np.all(np.isfinite(res.total_m))
     assert np.all(res.braking_m > 0)
     # The normal force is held at zero while lift carries the weight: compare with solve_ivp.
@@ -166,6 +167,8 @@ def test_cannot_stop_is_flagged_in_arrays_and_refused_alone(anderson) -> None:
     hot = replace(anderson, idle_t0=np.array([0.0, 0.5 * anderson.mass * anderson.g]))
     res = solve_landings(hot)
     assert list(res.cannot_stop) == [False, True]
+    assert res.flag_counts() == {"overrun": 1, "lift_exceeds_weight": 0, "cannot_stop": 1,
+                                 "stopped_in_free_roll": 0}
     assert np.isinf(res.braking_m[1]) and res.overrun[1]
     with pytest.raises(SolveError, match="cannot stop"):
         solve_one(replace(anderson, idle_t0=0.5 * anderson.mass * anderson.g))

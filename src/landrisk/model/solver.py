@@ -90,6 +90,11 @@ class LandingResult:
         """Number of landings."""
         return int(self.total_m.shape[0])
 
+    def flag_counts(self) -> dict[str, int]:
+        """How many landings carry each flag, and how many overrun."""
+        names = ("overrun", "lift_exceeds_weight", "cannot_stop", "stopped_in_free_roll")
+        return {n: int(np.count_nonzero(getattr(self, n))) for n in names}
+
 
 @dataclass(frozen=True)
 class _Forces:
