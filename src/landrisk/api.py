@@ -6,11 +6,16 @@
 >>> round(result.total_m)                     # doctest: +SKIP
 947
 >>> table = lr.solve_many(scenario, {"runway.braking_mu": [0.2, 0.3, 0.4]})   # a pandas DataFrame
+>>> scenario, uncertain = lr.load_study()     # the demo with its uncertain inputs
+>>> result = lr.assess(scenario, uncertain, samples=100_000, seed=1)
+>>> lr.percentile_table(result)               # doctest: +SKIP
 """
 
 from __future__ import annotations
 
-from collections.abc import Iterable, Mapping
+import json
+import warnings
+from collections.abc import Callable, Iterable, Mapping
 from pathlib import Path
 from typing import Any
 
@@ -19,18 +24,43 @@ import pandas as pd
 from numpy.typing import ArrayLike
 
 from landrisk import CAUTION, __version__
-from landrisk.errors import SolveError
-from landrisk.io import load_scenario
+from landrisk.errors import LandriskWarning, SolveError
+from landrisk.io import UncertainSet, load_scenario
+from landrisk.io import load_study as _load_study
 from landrisk.io.config import demo_text
-from landrisk.io.output import write_text_new
+from landrisk.io.output import comment_header, write_files, write_text_new
 from landrisk.model import KEYS, LandingResult, Scenario, SingleLanding, solve_landings, solve_one
+from landrisk.studies import PHASES, Assessment, AssessSettings, samples_frame_columns, summary_record
+from landrisk.studies import assess as _assess
 
-__all__ = ["SingleLanding", "load", "solve", "solve_many", "solve_record", "write_starter"]
+__all__ = [
+    "AssessSettings",
+    "Assessment",
+    "SingleLanding",
+    "assess",
+    "assessment_record",
+    "load",
+    "load_study",
+    "percentile_table",
+    "samples_table",
+    "solve",
+    "solve_many",
+    "solve_record",
+    "write_assessment",
+    "write_starter",
+]
 
 
 def load(path: str | Path | None = None, overrides: Iterable[str] = ()) -> Scenario:
     """Read a scenario file (``None``: the embedded demo) with ``KEY=VALUE`` overrides."""
     return load_scenario(path, overrides)
+
+
+def load_study(
+    path: str | Path | None = None, overrides: Iterable[str] = ()
+) -> tuple[Scenario, UncertainSet]:
+    """Read a scenario and its uncertain inputs (``None``: the embedded demo)."""
+    return _load_study(path, overrides)
 
 
 def solve(scenario: Scenario) -> SingleLanding:
@@ -131,3 +161,96 @@ def write_starter(path: str | Path, force: bool = False) -> Path:
         "# with your own data; see the README for the meaning, unit and range of each key.\n"
     )
     return write_text_new(Path(path), header + demo_text(), force=force)
+
+
+def assess(
+    scenario: Scenario,
+    uncertain: UncertainSet,
+    *,
+    samples: int = 100_000,
+    seed: int = 1,
+    sampler: str = "random",
+    chunk: int = 1 << 16,
+    keep_samples: bool = False,
+    progress: Callable[[int, int], None] | None = None,
+) -> Assessment:
+    """Monte Carlo overrun assessment of ``scenario`` over its ``uncertain`` inputs.
+
+    Returns the :class:`landrisk.studies.Assessment`; see :func:`percentile_table`,
+    :func:`samples_table` and :func:`assessment_record` for pandas and JSON views of it.
+    """
+    for key in uncertain.fixed:
+        warnings.warn(f"{key} is fixed by --set; its distribution is not used", LandriskWarning,
+                      stacklevel=2)
+    settings = AssessSettings(samples=samples, seed=seed, sampler=sampler, chunk=chunk,
+                              keep_samples=keep_samples)
+    return _assess(scenario, uncertain.problem(), settings, progress=progress,
+                   record=uncertain.record())
+
+
+def _provenance(a: Assessment) -> dict[str, Any]:
+    s = a.scenario
+    return {
+        "tool": "landrisk",
+        "version": __version__,
+        "caution": CAUTION,
+        "scenario": s.name,
+        "source": s.source,
+        "overrides": list(s.overrides),
+        "seed": a.settings.seed,
+        "sampler": a.settings.sampler,
+        "samples": a.settings.samples,
+    }
+
+
+def assessment_record(a: Assessment) -> dict[str, Any]:
+    """Everything about an assessment, JSON-ready: provenance, resolved inputs, results."""
+    return {
+        **_provenance(a),
+        **summary_record(a),
+        "inputs": dict(a.scenario.values),
+        "input_units": {k: spec.unit for k, spec in KEYS.items() if spec.kind == "quantity"},
+        "uncertain": dict(a.record),
+        "scenario_text": a.scenario.text,
+    }
+
+
+def percentile_table(a: Assessment) -> pd.DataFrame:
+    """Percentiles of every phase with their intervals: one row per (phase, percentile)."""
+    rows = []
+    for name, label in PHASES.items():
+        for p in a.percentiles[name]:
+            rows.append({"phase": label, "percentile": p.p, "value_m": p.value, "ci95_lo_m": p.lo,
+                         "ci95_hi_m": p.hi, "supported": p.supported})
+    return pd.DataFrame(rows)
+
+
+def samples_table(a: Assessment) -> pd.DataFrame:
+    """Every sample's uncertain inputs (if kept) and its phase distances, as a DataFrame."""
+    return pd.DataFrame(dict(samples_frame_columns(a)))
+
+
+def write_assessment(
+    a: Assessment, folder: str | Path, *, force: bool = False, figures: bool = True
+) -> list[Path]:
+    """Write summary.json, percentiles.csv, the figures (PNG and SVG) and, if kept, samples.csv.
+
+    Every file records the tool version, the seed, the sampler, the sample count and the scenario.
+    """
+    record = assessment_record(a)
+    header = comment_header({**_provenance(a), "inputs": dict(a.scenario.values),
+                             "uncertain": record["uncertain"]})
+    files: dict[str, str | bytes] = {
+        "summary.json": json.dumps(record, indent=2, default=str) + "\n",
+        "percentiles.csv": header + percentile_table(a).to_csv(index=False),
+    }
+    if figures:
+        from landrisk.plotting import FIGURES, figure_bytes
+
+        meta = {**_provenance(a), "inputs": dict(a.scenario.values)}
+        for stem, make in FIGURES.items():
+            for fmt in ("png", "svg"):
+                files[f"{stem}.{fmt}"] = figure_bytes(make(a), fmt, meta)
+    if a.inputs is not None:
+        files["samples.csv"] = header + samples_table(a).to_csv(index=False)
+    return write_files(Path(folder), files, force=force)

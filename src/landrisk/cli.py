@@ -85,6 +85,72 @@ def solve(config: str | None, overrides: tuple[str, ...], as_json: bool) -> None
         click.echo(report.render_solve(landing))
 
 
+class _ProgressBar:
+    """A one-line progress bar on stderr, for long runs in a terminal only."""
+
+    def __init__(self, enabled: bool) -> None:
+        self.enabled = enabled and sys.stderr.isatty()
+        self.shown = False
+
+    def __call__(self, done: int, total: int) -> None:
+        if not self.enabled or total <= (1 << 16):
+            return
+        width = 30
+        filled = int(width * done / total)
+        sys.stderr.write(f"\r[{'#' * filled}{'.' * (width - filled)}] {done:,}/{total:,} samples")
+        sys.stderr.flush()
+        self.shown = True
+
+    def close(self) -> None:
+        if self.shown:
+            sys.stderr.write("\n")
+
+
+@main.command(epilog=_HELP_CAUTION)
+@_config_argument
+@click.option("--samples", type=click.IntRange(min=1), default=100_000, show_default=True,
+              help="Number of Monte Carlo samples.")
+@click.option("--seed", type=click.IntRange(min=0), default=1, show_default=True,
+              help="Seed of the sampler; the same seed gives the same results.")
+@click.option("--sampler", type=click.Choice(["random", "sobol", "halton", "lhs"]), default="random",
+              show_default=True, help="Pseudo-random, scrambled Sobol or Halton points, or Latin hypercube.")
+@_set_option
+@click.option("--out", "out_dir", type=click.Path(file_okay=False),
+              help="Write summary.json, percentiles.csv and the figures (PNG, SVG) to this folder.")
+@click.option("--save-samples", is_flag=True, help="With --out: also samples.csv, every sample's inputs "
+              "and phase distances.")
+@click.option("--force", is_flag=True, help="Replace existing output files.")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of the summary.")
+@click.option("--quiet", is_flag=True, help="No progress bar.")
+@_reported
+def assess(config: str | None, samples: int, seed: int, sampler: str, overrides: tuple[str, ...],
+           out_dir: str | None, save_samples: bool, force: bool, as_json: bool, quiet: bool) -> None:
+    """Probability of an overrun and percentile landing distances, by Monte Carlo.
+
+    Samples the scenario's uncertain inputs ([uncertain."<key>"] tables), solves every landing, and
+    reports percentiles of the landing distance and of each phase with their confidence intervals, the
+    probability of an overrun and of stopping beyond the runway-end safety area with binomial
+    intervals, and comparison lines with regulatory factors.
+    """
+    from landrisk import api, report
+
+    if save_samples and not out_dir:
+        raise click.UsageError("--save-samples needs --out DIR")
+    scenario, uncertain = api.load_study(config, overrides)
+    bar = _ProgressBar(not quiet)
+    try:
+        result = api.assess(scenario, uncertain, samples=samples, seed=seed, sampler=sampler,
+                            keep_samples=save_samples, progress=bar)
+    finally:
+        bar.close()
+    written = [str(p) for p in api.write_assessment(result, out_dir, force=force)] if out_dir else None
+    if as_json:
+        click.echo(json.dumps({k: v for k, v in api.assessment_record(result).items()
+                               if k != "scenario_text"}, indent=2, default=str))
+    else:
+        click.echo(report.render_assess(result, written))
+
+
 @main.command(epilog=_HELP_CAUTION)
 @click.argument("path", type=click.Path(dir_okay=False))
 @click.option("--force", is_flag=True, help="Replace the file if it exists.")

@@ -4,9 +4,10 @@ from __future__ import annotations
 
 from landrisk import CAUTION, __version__
 from landrisk.model import SingleLanding
+from landrisk.studies import Assessment
 from landrisk.units import convert
 
-__all__ = ["render_solve"]
+__all__ = ["render_assess", "render_solve"]
 
 
 def _m_ft(label: str, metres: float, note: str = "") -> str:
@@ -67,4 +68,82 @@ def render_solve(landing: SingleLanding) -> str:
         "",
         CAUTION,
     ]
+    return "\n".join(lines)
+
+
+def _as_written(table: dict | None) -> str:
+    """``lognormal(median="1.5 s", sigma_log=0.4)`` from an uncertain table as written in the file."""
+    if not table:
+        return ""
+    params = ", ".join(f"{k}={v!r}".replace("'", '"') for k, v in table.items()
+                       if k not in ("distribution", "source"))
+    return f"{table.get('distribution')}({params})"
+
+
+def _pct_label(p: float) -> str:
+    return f"P{p:g}"
+
+
+def render_assess(a: Assessment, written: list[str] | None = None) -> str:
+    """The Monte Carlo assessment as a readable summary: percentiles, overrun risk, comparison lines."""
+    s = a.scenario
+    st = a.settings
+    conf = f"{100 * st.confidence:g} %"
+    lines = [
+        f"landrisk {__version__} - overrun risk by Monte Carlo",
+        f"Scenario: {s.name} ({s.source})" + (f" with {', '.join(s.overrides)}" if s.overrides else ""),
+        f"{st.samples:,} samples ({st.sampler}, seed {st.seed}); {a.problem.dimension} uncertain inputs:",
+    ]
+    written = a.record.get("inputs", {})
+    for name, m in zip(a.problem.names, a.problem.marginals, strict=True):
+        lines.append(f"  {name:<34}{_as_written(written.get(name, {}).get('written')) or m.describe()}")
+    if a.problem.spearman is not None:
+        lines.append("  rank correlations (Gaussian copula, an assumption): " + ", ".join(
+            f"{a.problem.names[i]} ~ {a.problem.names[j]} {a.problem.spearman[i, j]:+.2f}"
+            for i in range(a.problem.dimension) for j in range(i + 1, a.problem.dimension)
+            if a.problem.spearman[i, j] != 0))
+    mean, sd, lo, hi = a.moments["total_m"]
+    lines += [
+        "",
+        f"Total landing distance from the screen height          m         ft   {conf} interval [m]",
+        f"  {'mean':<44}{mean:9.1f} {convert(mean, 'm', 'ft'):10.0f}   [{lo:.1f}, {hi:.1f}]",
+        f"  {'standard deviation':<44}{sd:9.1f} {convert(sd, 'm', 'ft'):10.0f}",
+    ]
+    for p in a.percentiles["total_m"]:
+        if p.supported:
+            lines.append(f"  {_pct_label(p.p):<44}{p.value:9.1f} {convert(p.value, 'm', 'ft'):10.0f}   "
+                         f"[{p.lo:.1f}, {p.hi:.1f}]")
+        else:
+            lines.append(f"  {_pct_label(p.p):<44}{'needs more samples':>20}")
+    lines += ["", "By phase (P50 / P99, m):"]
+    for name in ("air_distance_m", "free_roll_m", "braking_m"):
+        by = {p.p: p for p in a.percentiles[name]}
+        if by[99.0].supported:
+            lines.append(f"  {name.removesuffix('_m').replace('_', ' '):<20}"
+                         f"{by[50.0].value:8.1f} / {by[99.0].value:8.1f}")
+    lines += [
+        "",
+        f"Runway: LDA {a.lda_m:.0f} m ({convert(a.lda_m, 'm', 'ft'):.0f} ft)",
+        f"  P(overrun)                        {a.p_overrun.text()}",
+        f"  P(beyond a {a.resa_length_m:.0f} m safety area)   {a.p_beyond_resa.text()}",
+    ]
+    if a.overrun_speed:
+        med = a.overrun_speed[0]
+        extra = ", ".join(f"{_pct_label(p.p)} {convert(p.value, 'm/s', 'kt'):.0f} kt"
+                          for p in a.overrun_speed[1:] if p.supported)
+        lines.append(f"  ground speed of the overruns at the runway end: median "
+                     f"{convert(med.value, 'm/s', 'kt'):.0f} kt" + (f", {extra}" if extra else "") +
+                     f", largest {convert(a.overrun_speed_max, 'm/s', 'kt'):.0f} kt")
+    lines += ["", f"Comparison lines (P that the Monte Carlo distance exceeds each; {conf} interval)"]
+    for c in a.comparisons:
+        lines.append(f"  {c.name:<32}{c.distance_m:8.0f} m   {c.p_exceed.text()}")
+    lines += [f"    {c.name}: {c.source}" for c in a.comparisons[1:]]
+    if any(a.flags.values()):
+        lines.append(f"Flags: {a.flags['lift_exceeds_weight']} samples with lift above weight at touchdown, "
+                     f"{a.flags['cannot_stop']} that cannot stop (counted as overruns).")
+    if st.sampler != "random":
+        lines.append(f"Intervals assume independent samples; for {st.sampler} points they are conservative.")
+    if written:
+        lines += ["", "Files written:"] + [f"  {w}" for w in written]
+    lines += ["", CAUTION]
     return "\n".join(lines)

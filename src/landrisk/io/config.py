@@ -18,11 +18,20 @@ from typing import Any
 import numpy as np
 
 from landrisk.errors import ConfigError, LandriskWarning
+from landrisk.io.uncertain import UncertainSet, parse_uncertain
 from landrisk.model import KEYS, Key, Scenario
 from landrisk.physics import isa_density, isa_pressure_altitude, stall_speed
 from landrisk.units import UnitError, has_dimension, to_unit
 
-__all__ = ["DEMO_SOURCE", "demo_text", "load_scenario", "parse_scenario", "parse_set"]
+__all__ = [
+    "DEMO_SOURCE",
+    "demo_text",
+    "load_scenario",
+    "load_study",
+    "parse_scenario",
+    "parse_set",
+    "parse_study",
+]
 
 DEMO_SOURCE = "<demo>"
 #: Touchdown speed ratios below this are accepted with a warning (common practice, no source: civil
@@ -56,36 +65,73 @@ def load_scenario(path: str | Path | None = None, overrides: Iterable[str] = ())
     overrides : iterable of str
         ``KEY=VALUE`` assignments (``runway.lda="6500 ft"``), VALUE written as in the file.
     """
-    if path is None:
-        return parse_scenario(demo_text(), DEMO_SOURCE, overrides)
-    p = Path(path)
-    try:
-        text = p.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise ConfigError("no such file", file=str(p)) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise ConfigError(f"cannot read the file ({exc})", file=str(p)) from None
-    return parse_scenario(text, str(p), overrides)
+    return load_study(path, overrides)[0]
 
 
 def parse_scenario(text: str, source: str = "<text>", overrides: Iterable[str] = ()) -> Scenario:
     """Check the TOML ``text`` of a scenario (with ``--set`` overrides) and build the Scenario."""
+    return parse_study(text, source, overrides)[0]
+
+
+def load_study(
+    path: str | Path | None = None, overrides: Iterable[str] = ()
+) -> tuple[Scenario, UncertainSet]:
+    """Read a scenario and its uncertain inputs (``None``: the embedded demo)."""
+    if path is None:
+        return parse_study(demo_text(), DEMO_SOURCE, overrides)
+    p = Path(path)
+    return parse_study(_read(p), str(p), overrides, base_dir=p.parent)
+
+
+def parse_study(
+    text: str, source: str = "<text>", overrides: Iterable[str] = (), base_dir: Path | None = None
+) -> tuple[Scenario, UncertainSet]:
+    """The Scenario and its UncertainSet from TOML ``text``.
+
+    ``--set`` on an uncertain key fixes it at the value given: its distribution is dropped and the key
+    is listed in ``UncertainSet.fixed``.
+    """
     try:
         raw = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise ConfigError(f"not valid TOML ({exc})", file=source) from None
     overrides = tuple(overrides)
+    fixed = set()
     for item in overrides:
         key, value = parse_set(item)
         for other in _REPLACES.get(key, ()):  # an override of one form replaces the other form
             raw.get(other.split(".")[0], {}).pop(other.split(".")[1], None)
         _assign(raw, key, value)
-    origin = {key: "--set" for key, _ in map(parse_set, overrides)}
+        fixed.add(key)
+    origin = {key: "--set" for key in fixed}
+    tables, correlation = raw.pop("uncertain", None), raw.pop("correlation", None)
     try:
-        values = _values(raw, source, origin)
+        values, flat = _values(raw, source, origin, optional=set(tables or {}))
+        uncertain = parse_uncertain(tables, correlation, values, base_dir)
+        dropped = fixed & set(uncertain.keys)
+        if dropped:
+            uncertain = uncertain.without(dropped)
+        for u in uncertain.inputs:  # a required key given only as a distribution: its median
+            if values[u.key] is None and KEYS[u.key].required:
+                values[u.key] = _nominal(u.key, float(u.marginal.ppf(0.5)))
+        _check_together(values, flat)
     except ConfigError as exc:
         raise exc.with_file(source) from None
-    return Scenario(values=values, source=source, text=text, overrides=overrides)
+    return Scenario(values=values, source=source, text=text, overrides=overrides), uncertain
+
+
+def _nominal(key: str, value: float) -> Any:
+    kind = KEYS[key].kind
+    return bool(value > 0.5) if kind == "bool" else round(value) if kind == "int" else value
+
+
+def _read(p: Path) -> str:
+    try:
+        return p.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise ConfigError("no such file", file=str(p)) from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise ConfigError(f"cannot read the file ({exc})", file=str(p)) from None
 
 
 def parse_set(item: str) -> tuple[str, Any]:
@@ -230,7 +276,10 @@ def _typed(spec: Key, value: Any) -> Any:
     return value
 
 
-def _values(raw: Mapping[str, Any], source: str, origin: Mapping[str, str]) -> dict[str, Any]:
+def _values(
+    raw: Mapping[str, Any], source: str, origin: Mapping[str, str], optional: set[str]
+) -> tuple[dict[str, Any], dict[str, Any]]:
+    """Every key's value (``optional``: required keys that may be missing, being uncertain)."""
     flat = _flatten(raw)
     values: dict[str, Any] = {}
     for name, spec in KEYS.items():
@@ -238,14 +287,13 @@ def _values(raw: Mapping[str, Any], source: str, origin: Mapping[str, str]) -> d
         try:
             if name in flat:
                 values[name] = flat[name] if name.startswith("aircraft.thrust.") else _typed(spec, flat[name])
-            elif spec.required:
+            elif spec.required and name not in optional:
                 raise ConfigError("is required", key=name, allowed=spec.allowed())
             else:
                 values[name] = spec.default
         except ConfigError as exc:
             raise (exc.with_file(f"{source} (--set)") if where else exc) from None
-    _check_together(values, flat)
-    return values
+    return values, flat
 
 
 def _check_together(v: dict[str, Any], flat: Mapping[str, Any]) -> None:

@@ -13,7 +13,7 @@ import math
 from dataclasses import dataclass
 from typing import Any, Literal
 
-__all__ = ["KEYS", "Key", "section_keys"]
+__all__ = ["KEYS", "Key", "keys_markdown", "section_keys"]
 
 Kind = Literal["quantity", "int", "bool", "str"]
 
@@ -130,6 +130,9 @@ _KEYS: list[Key] = [
     _k("runway.name", "", "Name of the runway (free text)", default="", kind="str"),
     _k("runway.lda", "m", "Landing distance available, from the threshold", lo=100.0, hi=10_000.0,
        required=True),
+    _k("runway.resa_length", "m", "Runway end safety area beyond the runway end, for the probability "
+       "of stopping beyond it (ICAO Annex 14 recommends 240 m; from memory)", default=240.0, lo=0.0,
+       hi=2_000.0),
     _k("runway.slope", "percent", "Mean slope along the landing direction, positive uphill",
        default=0.0, lo=-20.0, hi=20.0),
     _k("runway.rolling_mu", "", "Rolling friction coefficient, brakes off (default 0.04, paved)",
@@ -168,3 +171,15 @@ def section_keys(section: str) -> list[Key]:
     """The keys whose dotted name starts with ``section + "."``, in file order."""
     prefix = section + "."
     return [k for k in _KEYS if k.name.startswith(prefix)]
+
+
+def keys_markdown() -> str:
+    """The table of every key as Markdown, as shown in the README."""
+    rows = ["| key | unit of a bare number | default | allowed | meaning |", "|---|---|---|---|---|"]
+    for k in _KEYS:
+        shown = "—" if k.default is None else repr(k.default).replace("'", '"')
+        default = "required" if k.required else shown
+        unit = k.unit.replace("**", "^") if k.unit else "–"
+        allowed = k.allowed().replace("**", "^")
+        rows.append(f"| `{k.name}` | {unit} | {default} | {allowed} | {k.doc} |")
+    return "\n".join(rows) + "\n"

@@ -1,0 +1,308 @@
+"""Marginal distributions of uncertain inputs, and the joint problem with a Gaussian copula.
+
+Continuous families are chaospy distributions; every marginal is sampled by its inverse transform
+x = F^-1(u), so that any uniform points (pseudo-random, scrambled Sobol, Halton, Latin hypercube) and any
+seed give reproducible samples. A continuous family may be truncated to [lower, upper], sampled as
+F^-1(F(a) + u (F(b) - F(a))). Discrete choices and empirical samples are small classes with the same
+interface.
+
+Correlation: users give rank (Spearman) correlations; the Gaussian copula takes the normal-space
+correlation rho_N = 2 sin(pi rho_S / 6) (Pearson's relation for the bivariate normal; Kruskal 1958,
+J. Am. Stat. Assoc. 53:814). A Gaussian copula is an assumption: flight data show asymmetric tail
+dependence between touchdown variables (Alnasser & Czado 2022, arXiv:2205.04591).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import chaospy as cp
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+from scipy import special
+
+__all__ = [
+    "FAMILIES",
+    "Marginal",
+    "Problem",
+    "make_marginal",
+    "normal_correlation_from_spearman",
+]
+
+Array = NDArray[np.float64]
+
+#: family -> (required parameters, optional parameters). Quantities are in the unit of the input.
+FAMILIES: dict[str, tuple[tuple[str, ...], tuple[str, ...]]] = {
+    "normal": (("mean", "sd"), ("lower", "upper")),
+    "truncnormal": (("mean", "sd", "lower", "upper"), ()),
+    "lognormal": ((), ("median", "sigma_log", "mean", "sd", "lower", "upper")),
+    "uniform": (("lower", "upper"), ()),
+    "triangular": (("lower", "mode", "upper"), ()),
+    "beta": (("alpha", "beta", "lower", "upper"), ()),
+    "weibull": (("shape", "scale"), ("shift", "lower", "upper")),
+    "discrete": (("values", "probabilities"), ()),
+    "empirical": (("data",), ()),
+}
+
+
+@dataclass(frozen=True)
+class Marginal:
+    """One uncertain input's distribution.
+
+    Attributes
+    ----------
+    family : str
+        One of :data:`FAMILIES`.
+    params : dict
+        The parameters as given (after unit conversion).
+    lower, upper : float
+        The support (after truncation); infinite where unbounded.
+    base : chaospy.Distribution or None
+        The untruncated continuous distribution (None for discrete and empirical).
+    """
+
+    family: str
+    params: Mapping[str, Any]
+    lower: float
+    upper: float
+    base: Any = None
+    _values: Array = field(default_factory=lambda: np.empty(0), repr=False)
+    _cum: Array = field(default_factory=lambda: np.empty(0), repr=False)
+
+    @property
+    def discrete(self) -> bool:
+        """True for a discrete choice."""
+        return self.family == "discrete"
+
+    @property
+    def truncated(self) -> bool:
+        """True where a continuous family is cut to [lower, upper]."""
+        return self.base is not None and ("lower" in self.params or "upper" in self.params) and \
+            self.family not in ("uniform", "triangular", "beta")
+
+    def ppf(self, u: ArrayLike) -> Array:
+        """Inverse distribution function x = F^-1(u) for u in (0, 1)."""
+        u = np.asarray(u, dtype=float)
+        if self.family == "discrete":
+            idx = np.searchsorted(self._cum, u, side="right")
+            return self._values[np.minimum(idx, self._values.size - 1)]
+        if self.family == "empirical":
+            # Linear interpolation between order statistics (Hyndman & Fan 1996, definition 7).
+            return np.quantile(self._values, u, method="linear")
+        if self.family in ("normal", "truncnormal"):
+            return self._normal_ppf(u)
+        if self.truncated:
+            fa, fb = self._base_cdf(self.lower), self._base_cdf(self.upper)
+            return np.clip(self.base.inv(fa + u * (fb - fa)), self.lower, self.upper)
+        return self.base.inv(u)
+
+    def _base_cdf(self, x: float) -> float:
+        if math.isinf(x):
+            return 0.0 if x < 0 else 1.0
+        return float(self.base.fwd(x))
+
+    def _normal_ppf(self, u: Array) -> Array:
+        mu, sd = self.params["mean"], self.params["sd"]
+        a = (self.lower - mu) / sd
+        b = (self.upper - mu) / sd
+        if math.isinf(a) and math.isinf(b):
+            return mu + sd * special.ndtri(u)
+        # Work in the tail nearer to the interval, where Phi keeps its precision (Phi(-z) = 1 - Phi(z)).
+        if a > 0:
+            pa, pb = special.ndtr(-b), special.ndtr(-a)
+            z = -special.ndtri(pb - u * (pb - pa))
+        else:
+            pa, pb = special.ndtr(a), special.ndtr(b)
+            z = special.ndtri(pa + u * (pb - pa))
+        return np.clip(mu + sd * z, self.lower, self.upper)
+
+    def mean(self) -> float:
+        """The distribution's mean (by quadrature of the quantile function for truncated families)."""
+        if self.family in ("discrete", "empirical"):
+            if self.family == "discrete":
+                return float(np.sum(self._values * np.diff(np.concatenate([[0.0], self._cum]))))
+            return float(np.mean(self._values))
+        if not self.truncated and self.family not in ("normal", "truncnormal"):
+            return float(self.base.mom(1))
+        x, w = np.polynomial.legendre.leggauss(200)
+        return float(0.5 * np.sum(w * self.ppf(0.5 * (x + 1.0))))
+
+    def describe(self) -> str:
+        """Short text such as ``normal(mean=3, sd=1) on [0, 10]``."""
+        shown = {k: v for k, v in self.params.items() if k not in ("data",)}
+        if self.family == "empirical":
+            shown = {"n": len(self.params["data"])}
+        text = f"{self.family}(" + ", ".join(f"{k}={_fmt(v)}" for k, v in shown.items()) + ")"
+        if self.truncated:
+            text += f" on [{_fmt(self.lower)}, {_fmt(self.upper)}]"
+        return text
+
+
+def _fmt(v: Any) -> str:
+    if isinstance(v, list | tuple):
+        return "[" + ", ".join(_fmt(x) for x in v) + "]"
+    if isinstance(v, float):
+        return f"{v:.6g}"
+    return str(v)
+
+
+def _positive(params: Mapping[str, Any], *names: str) -> None:
+    for n in names:
+        if not params[n] > 0:
+            raise ValueError(f"{n} must be positive (got {params[n]:g})")
+
+
+def make_marginal(family: str, params: Mapping[str, Any]) -> Marginal:
+    """Build and check a marginal distribution.
+
+    Parameters
+    ----------
+    family : str
+        ``normal`` (mean, sd; optional lower, upper), ``truncnormal`` (mean, sd, lower, upper),
+        ``lognormal`` (median and sigma_log, or mean and sd, of the variable; optional lower, upper),
+        ``uniform`` (lower, upper), ``triangular`` (lower, mode, upper), ``beta`` (alpha, beta on
+        [lower, upper]), ``weibull`` (shape, scale, optional shift; optional lower, upper),
+        ``discrete`` (values, probabilities summing to 1), ``empirical`` (data: a sample).
+    params : mapping
+        Parameter values, already in the input's unit.
+
+    Raises
+    ------
+    ValueError
+        With a message naming the parameter, for a bad or missing parameter.
+    """
+    if family not in FAMILIES:
+        raise ValueError(f"unknown distribution {family!r}; choose one of {', '.join(FAMILIES)}")
+    required, optional = FAMILIES[family]
+    missing = [n for n in required if n not in params]
+    unknown = [n for n in params if n not in required + optional]
+    if missing:
+        raise ValueError(f"{family} needs {', '.join(missing)}")
+    if unknown:
+        takes = ", ".join(required + optional)
+        raise ValueError(f"{family} takes no {', '.join(unknown)} (it takes {takes})")
+    p = dict(params)
+    lo, hi = p.get("lower", -math.inf), p.get("upper", math.inf)
+    if lo >= hi:
+        raise ValueError(f"lower ({lo:g}) must be below upper ({hi:g})")
+
+    if family in ("normal", "truncnormal"):
+        _positive(p, "sd")
+        return Marginal(family, p, lo, hi, cp.Normal(p["mean"], p["sd"]))
+    if family == "lognormal":
+        if "median" in p and "sigma_log" in p and not {"mean", "sd"} & set(p):
+            _positive(p, "median", "sigma_log")
+            mu, s = math.log(p["median"]), p["sigma_log"]
+        elif "mean" in p and "sd" in p and not {"median", "sigma_log"} & set(p):
+            _positive(p, "mean", "sd")
+            s = math.sqrt(math.log1p((p["sd"] / p["mean"]) ** 2))
+            mu = math.log(p["mean"]) - 0.5 * s * s
+        else:
+            raise ValueError("lognormal needs either median and sigma_log, or mean and sd")
+        return Marginal(family, p, max(lo, 0.0), hi, cp.LogNormal(mu, s))
+    if family == "uniform":
+        return Marginal(family, p, lo, hi, cp.Uniform(lo, hi))
+    if family == "triangular":
+        if not lo <= p["mode"] <= hi:
+            raise ValueError(f"mode ({p['mode']:g}) must lie between lower and upper")
+        return Marginal(family, p, lo, hi, cp.Triangle(lo, p["mode"], hi))
+    if family == "beta":
+        _positive(p, "alpha", "beta")
+        return Marginal(family, p, lo, hi, cp.Beta(p["alpha"], p["beta"], lo, hi))
+    if family == "weibull":
+        _positive(p, "shape", "scale")
+        shift = p.get("shift", 0.0)
+        return Marginal(family, p, max(lo, shift), hi, cp.Weibull(p["shape"], p["scale"], shift))
+    if family == "discrete":
+        return _discrete(p)
+    return _empirical(p)
+
+
+def _discrete(p: dict[str, Any]) -> Marginal:
+    values = np.asarray(p["values"], dtype=float)
+    probs = np.asarray(p["probabilities"], dtype=float)
+    if values.ndim != 1 or values.size == 0 or values.shape != probs.shape:
+        raise ValueError("values and probabilities must be lists of the same length")
+    if np.any(probs < 0) or not math.isclose(float(probs.sum()), 1.0, abs_tol=1e-9):
+        raise ValueError(f"probabilities must be >= 0 and sum to 1 (they sum to {probs.sum():.6g})")
+    if np.unique(values).size != values.size:
+        raise ValueError("values must differ from each other")
+    order = np.argsort(values)
+    values, probs = values[order], probs[order]
+    cum = np.cumsum(probs)
+    cum[-1] = 1.0
+    return Marginal("discrete", p, float(values[probs > 0].min()), float(values[probs > 0].max()),
+                    None, values, cum)
+
+
+def _empirical(p: dict[str, Any]) -> Marginal:
+    data = np.sort(np.asarray(p["data"], dtype=float))
+    if data.ndim != 1 or data.size < 2 or not np.all(np.isfinite(data)):
+        raise ValueError("empirical data must hold at least two finite numbers")
+    return Marginal("empirical", p, float(data[0]), float(data[-1]), None, data)
+
+
+def normal_correlation_from_spearman(spearman: ArrayLike) -> Array:
+    """Normal-space correlation of a Gaussian copula with the given Spearman correlation.
+
+    rho_N = 2 sin(pi rho_S / 6), Pearson's relation between the rank and the linear correlation of a
+    bivariate normal (Kruskal 1958).
+    """
+    return 2.0 * np.sin(np.pi * np.asarray(spearman, dtype=float) / 6.0)
+
+
+@dataclass(frozen=True)
+class Problem:
+    """The uncertain inputs of a study: names, marginals and an optional Gaussian-copula correlation.
+
+    Attributes
+    ----------
+    names : tuple of str
+        Input names (for landrisk, dotted scenario keys).
+    marginals : tuple of Marginal
+    spearman : numpy.ndarray or None
+        Rank correlation matrix as given (None: independent inputs).
+    """
+
+    names: tuple[str, ...]
+    marginals: tuple[Marginal, ...]
+    spearman: Array | None = None
+    _cholesky: Array | None = field(default=None, repr=False)
+
+    def __post_init__(self) -> None:
+        if len(self.names) != len(self.marginals):
+            raise ValueError("one marginal per name")
+        if self.spearman is not None:
+            r = np.asarray(self.spearman, dtype=float)
+            d = len(self.names)
+            if r.shape != (d, d) or not np.allclose(r, r.T) or not np.allclose(np.diag(r), 1.0):
+                raise ValueError("the correlation matrix must be symmetric with a unit diagonal")
+            if np.any(np.abs(r) > 1):
+                raise ValueError("correlations must lie in [-1, 1]")
+            try:
+                chol = np.linalg.cholesky(normal_correlation_from_spearman(r))
+            except np.linalg.LinAlgError:
+                raise ValueError("the correlation matrix is not positive definite") from None
+            object.__setattr__(self, "_cholesky", chol)
+
+    @property
+    def dimension(self) -> int:
+        """Number of uncertain inputs."""
+        return len(self.names)
+
+    def transform(self, u: ArrayLike) -> Array:
+        """Map uniform points u[n, d] in (0, 1)^d to input values x[n, d] (copula, then marginals)."""
+        u = np.asarray(u, dtype=float)
+        if self._cholesky is not None:
+            z = special.ndtri(u) @ self._cholesky.T
+            u = special.ndtr(z)
+        return np.column_stack([m.ppf(u[:, j]) for j, m in enumerate(self.marginals)]) if u.size else \
+            np.empty((0, self.dimension))
+
+    @classmethod
+    def independent(cls, names: Sequence[str], marginals: Sequence[Marginal]) -> Problem:
+        """A problem without correlation."""
+        return cls(tuple(names), tuple(marginals))
