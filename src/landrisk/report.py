@@ -127,13 +127,12 @@ def render_assess(a: Assessment, written: list[str] | None = None) -> str:
         f"  P(overrun)                        {a.p_overrun.text()}",
         f"  P(beyond a {a.resa_length_m:.0f} m safety area)   {a.p_beyond_resa.text()}",
     ]
-    if a.overrun_speed:
-        med = a.overrun_speed[0]
-        extra = ", ".join(f"{_pct_label(p.p)} {convert(p.value, 'm/s', 'kt'):.0f} kt"
-                          for p in a.overrun_speed[1:] if p.supported)
-        lines.append(f"  ground speed of the overruns at the runway end: median "
-                     f"{convert(med.value, 'm/s', 'kt'):.0f} kt" + (f", {extra}" if extra else "") +
-                     f", largest {convert(a.overrun_speed_max, 'm/s', 'kt'):.0f} kt")
+    if a.overrun_speed_max is not None:
+        shown = [f"{'median' if p.p == 50 else _pct_label(p.p)} {convert(p.value, 'm/s', 'kt'):.0f} kt"
+                 for p in a.overrun_speed if p.supported]
+        lo, hi = (convert(v, "m/s", "kt") for v in (a.overrun_speed_min, a.overrun_speed_max))
+        lines.append("  ground speed of the overruns at the runway end: " + ", ".join(
+            [*shown, f"range {lo:.0f} to {hi:.0f} kt"]))
     lines += ["", f"Comparison lines (P that the Monte Carlo distance exceeds each; {conf} interval)"]
     for c in a.comparisons:
         lines.append(f"  {c.name:<32}{c.distance_m:8.0f} m   {c.p_exceed.text()}")

@@ -199,7 +199,7 @@ def _read_column(spec: Key, body: dict[str, Any], base_dir: Path | None, where: 
         raise ConfigError("an empirical distribution needs file and column (text)", key=where)
     path = Path(file) if Path(file).is_absolute() or base_dir is None else base_dir / file
     try:
-        frame = pd.read_csv(path)
+        frame = pd.read_csv(path, comment="#")
     except FileNotFoundError:
         raise ConfigError("no such file", key=f"{where}.file", value=str(path)) from None
     except Exception as exc:  # pandas raises many kinds for unreadable files

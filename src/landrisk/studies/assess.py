@@ -101,7 +101,8 @@ class Assessment:
     p_overrun: EventProbability
     p_beyond_resa: EventProbability
     resa_length_m: float
-    overrun_speed: list[Percentile]
+    overrun_speed: list[Percentile]  # percentiles of the ground speed at the runway end, of the overruns
+    overrun_speed_min: float | None
     overrun_speed_max: float | None
     comparisons: list[ComparisonLine]
     nominal_total_m: float
@@ -211,6 +212,7 @@ def assess(
         p_beyond_resa=event_probability(int(beyond.sum()), n, conf),
         resa_length_m=resa,
         overrun_speed=percentiles(speeds, (50.0, 90.0, 99.0), conf, presorted=True) if speeds.size else [],
+        overrun_speed_min=float(speeds[0]) if speeds.size else None,
         overrun_speed_max=float(speeds[-1]) if speeds.size else None,
         comparisons=comparisons,
         nominal_total_m=float(nominal.total_m[0]),
@@ -247,6 +249,7 @@ def summary_record(a: Assessment) -> dict[str, Any]:
         "resa_length_m": a.resa_length_m,
         "p_beyond_resa": a.p_beyond_resa.as_dict(),
         "overrun_ground_speed_ms": pct(a.overrun_speed),
+        "overrun_ground_speed_min_ms": a.overrun_speed_min,
         "overrun_ground_speed_max_ms": a.overrun_speed_max,
         "phases": {name: {"mean_m": a.moments[name][0], "sd_m": a.moments[name][1],
                           "percentiles": pct(a.percentiles[name])} for name in PHASES},

@@ -1,0 +1,177 @@
+"""The uncertainty layer against exact results and scipy.stats."""
+
+import numpy as np
+import pytest
+from scipy import stats
+
+from landrisk.uq import (
+    Problem,
+    event_probability,
+    exceedance_curve,
+    make_marginal,
+    percentiles,
+    run_monte_carlo,
+    sample,
+    uniform_chunks,
+)
+from landrisk.uq.testmodels import StoppingDistance
+
+SAMPLERS = ("random", "sobol", "halton", "lhs")
+
+
+# --- Marginals against scipy.stats ----------------------------------------------------------------
+U = np.linspace(0.001, 0.999, 41)
+
+
+@pytest.mark.parametrize(
+    ("family", "params", "reference"),
+    [
+        ("normal", {"mean": 3.0, "sd": 2.0}, stats.norm(3, 2)),
+        ("normal", {"mean": 3.0, "sd": 2.0, "lower": 2.0, "upper": 9.0}, stats.truncnorm(-0.5, 3.0, 3, 2)),
+        ("truncnormal", {"mean": 0.0, "sd": 1.0, "lower": 2.0, "upper": 5.0}, stats.truncnorm(2.0, 5.0)),
+        ("lognormal", {"median": 1.5, "sigma_log": 0.4}, stats.lognorm(0.4, scale=1.5)),
+        ("lognormal", {"mean": 2.0, "sd": 0.5},
+         stats.lognorm(np.sqrt(np.log1p(0.0625)), scale=2.0 / np.sqrt(1.0625))),
+        ("uniform", {"lower": 0.3, "upper": 0.5}, stats.uniform(0.3, 0.2)),
+        ("triangular", {"lower": 0.15, "mode": 0.32, "upper": 0.42}, stats.triang((0.17) / 0.27, 0.15, 0.27)),
+        ("beta", {"alpha": 2.0, "beta": 5.0, "lower": 0.1, "upper": 0.6}, stats.beta(2, 5, 0.1, 0.5)),
+        ("weibull", {"shape": 2.0, "scale": 6.0}, stats.weibull_min(2.0, scale=6.0)),
+    ],
+)
+def test_marginal_quantiles_match_scipy(family, params, reference) -> None:
+    m = make_marginal(family, params)
+    np.testing.assert_allclose(m.ppf(U), reference.ppf(U), rtol=1e-7, atol=1e-9)
+    assert m.mean() == pytest.approx(reference.mean(), rel=1e-6)
+
+
+def test_truncated_lognormal_against_scipy() -> None:
+    # F^-1(F(a) + u (F(b) - F(a))) of the lognormal, against scipy's truncated construction by hand.
+    m = make_marginal("lognormal", {"median": 1.5, "sigma_log": 0.4, "lower": 0.3, "upper": 6.0})
+    base = stats.lognorm(0.4, scale=1.5)
+    fa, fb = base.cdf(0.3), base.cdf(6.0)
+    np.testing.assert_allclose(m.ppf(U), base.ppf(fa + U * (fb - fa)), rtol=1e-7)
+
+
+def test_far_tail_truncated_normal_keeps_precision() -> None:
+    # Truncation 6 to 7 sd above the mean: naive Phi(a) + u(Phi(b) - Phi(a)) loses all digits.
+    m = make_marginal("normal", {"mean": 0.0, "sd": 1.0, "lower": 6.0, "upper": 7.0})
+    np.testing.assert_allclose(m.ppf(U), stats.truncnorm(6.0, 7.0).ppf(U), rtol=1e-9)
+
+
+def test_discrete_and_empirical() -> None:
+    d = make_marginal("discrete", {"values": [6, 5, 3], "probabilities": [0.9, 0.08, 0.02]})
+    assert list(d.ppf([0.01, 0.05, 0.5, 0.95])) == [3, 5, 6, 6]
+    assert d.mean() == pytest.approx(0.9 * 6 + 0.08 * 5 + 0.02 * 3)
+    data = np.array([3.0, 1.0, 2.0, 10.0])
+    e = make_marginal("empirical", {"data": data})
+    np.testing.assert_allclose(e.ppf(U), np.quantile(data, U))  # Hyndman & Fan definition 7
+    assert (e.lower, e.upper) == (1.0, 10.0)
+
+
+@pytest.mark.parametrize(
+    ("family", "params", "message"),
+    [
+        ("normal", {"mean": 1.0, "sd": -1.0}, "sd must be positive"),
+        ("uniform", {"lower": 2.0, "upper": 1.0}, "must be below upper"),
+        ("discrete", {"values": [1, 2], "probabilities": [0.5, 0.6]}, "sum to 1"),
+        ("triangular", {"lower": 0.0, "mode": 3.0, "upper": 2.0}, "mode"),
+        ("gamma", {"shape": 1.0}, "unknown distribution"),
+        ("normal", {"mean": 1.0}, "needs sd"),
+        ("normal", {"mean": 1.0, "sd": 1.0, "median": 2.0}, "takes no median"),
+        ("lognormal", {"median": 1.0, "sd": 1.0}, "either median and sigma_log"),
+    ],
+)
+def test_bad_marginals(family, params, message) -> None:
+    with pytest.raises(ValueError, match=message):
+        make_marginal(family, params)
+
+
+# --- Copula -------------------------------------------------------------------------------------------
+def test_gaussian_copula_reaches_the_target_rank_correlation() -> None:
+    # Pearson's relation rho_N = 2 sin(pi rho_S / 6) for the bivariate normal (Kruskal 1958): the sample
+    # Spearman correlation (scipy.stats.spearmanr) must match the target.
+    target = np.array([[1.0, 0.6, -0.3], [0.6, 1.0, 0.0], [-0.3, 0.0, 1.0]])
+    marg = (make_marginal("lognormal", {"median": 1.0, "sigma_log": 0.5}),
+            make_marginal("uniform", {"lower": 0.0, "upper": 1.0}),
+            make_marginal("weibull", {"shape": 2.0, "scale": 5.0}))
+    x = sample(Problem(("a", "b", "c"), marg, target), 200_000, seed=5)
+    rho = stats.spearmanr(x).statistic
+    np.testing.assert_allclose(rho, target, atol=0.01)
+
+
+def test_correlation_matrix_must_be_valid() -> None:
+    m = make_marginal("uniform", {"lower": 0.0, "upper": 1.0})
+    with pytest.raises(ValueError, match="positive definite"):
+        Problem(("a", "b", "c"), (m, m, m), np.array([[1, 0.9, -0.9], [0.9, 1, 0.9], [-0.9, 0.9, 1]]))
+
+
+# --- Samplers --------------------------------------------------------------------------------------
+@pytest.mark.parametrize("sampler", SAMPLERS)
+def test_points_do_not_depend_on_the_chunk_size(sampler) -> None:
+    whole = np.concatenate(list(uniform_chunks(1000, 3, sampler=sampler, seed=9, chunk=1000)))
+    parts = np.concatenate(list(uniform_chunks(1000, 3, sampler=sampler, seed=9, chunk=64)))
+    assert np.array_equal(whole, parts)
+    again = np.concatenate(list(uniform_chunks(1000, 3, sampler=sampler, seed=9, chunk=300)))
+    assert np.array_equal(whole, again)
+    assert whole.min() > 0 and whole.max() < 1
+
+
+def test_latin_hypercube_stratifies_each_margin() -> None:
+    u = np.concatenate(list(uniform_chunks(500, 2, sampler="lhs", seed=1)))
+    for j in range(2):
+        assert np.array_equal(np.sort(np.floor(u[:, j] * 500)), np.arange(500))
+
+
+# --- Monte Carlo on the exact model -----------------------------------------------------------------
+MODEL = StoppingDistance()
+
+
+@pytest.mark.parametrize("sampler", SAMPLERS)
+def test_percentiles_and_exceedance_match_the_exact_lognormal(sampler) -> None:
+    # d = V^2/(2 mu g) with lognormal V and mu is lognormal (Aitchison & Brown 1957): exact percentiles.
+    run = run_monte_carlo(MODEL.problem(), MODEL, 2**15, sampler=sampler, seed=3, chunk=5000)
+    d = run.outputs["distance"]
+    for p in percentiles(d, [5, 50, 90, 99]):
+        exact = float(MODEL.ppf(p.p / 100))
+        assert p.lo <= exact <= p.hi, (p, exact)
+    grid = MODEL.ppf([0.5, 0.9, 0.99])
+    _, lo, hi = exceedance_curve(np.sort(d), grid)
+    assert np.all((lo <= MODEL.sf(grid)) & (MODEL.sf(grid) <= hi))
+
+
+def test_percentile_interval_is_scipy_quantile_test() -> None:
+    # scipy.stats.quantile_test(...).confidence_interval(0.95): the same order statistics.
+    x = np.random.default_rng(0).lognormal(size=3001)
+    for p in percentiles(x, [1, 10, 50, 95, 99.5]):
+        ci = stats.quantile_test(x, q=np.median(x), p=p.p / 100).confidence_interval(0.95)
+        assert (p.lo, p.hi) == (ci.low, ci.high)
+    assert not percentiles(x, [99.99])[0].supported  # the sample cannot support it
+
+
+def test_zero_events_is_an_upper_bound_by_the_rule_of_three() -> None:
+    # With no event in n trials the 95 % upper bound is 1 - 0.05^(1/n), about 3/n (rule of three).
+    r = event_probability(0, 1_000_000)
+    assert r.upper_bound_only and r.estimate == 0.0
+    assert r.hi == pytest.approx(3.0 / 1_000_000, rel=0.01)
+    assert r.text().startswith("< 3.00e-06")
+
+
+def test_wilson_interval_is_scipy_binomtest() -> None:
+    r = event_probability(12, 10_000)
+    ci = stats.binomtest(12, 10_000).proportion_ci(method="wilson")
+    assert (r.lo, r.hi) == (ci.low, ci.high)
+
+
+def test_interval_coverage_over_many_seeds() -> None:
+    # Over many independent runs the 95 % interval for a known probability covers it about 95 % of the
+    # time. Known P(D > d0) = 0.02 exactly (the lognormal above); 400 runs of 2 000 samples.
+    d0 = float(MODEL.ppf(0.98))
+    covered = 0
+    runs = 400
+    for seed in range(runs):
+        d = run_monte_carlo(MODEL.problem(), MODEL, 2000, seed=seed).outputs["distance"]
+        r = event_probability(int(np.sum(d > d0)), d.size)
+        covered += r.lo <= 0.02 <= r.hi
+    # A correct 95 % interval falls outside [0.92, 0.98] in about 0.6 % of such experiments
+    # (scipy.stats.binom(400, 0.95)); the seeds are fixed, so the test is repeatable.
+    assert 0.92 <= covered / runs <= 0.98
