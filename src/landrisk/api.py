@@ -17,11 +17,13 @@ import json
 import warnings
 from collections.abc import Callable, Iterable, Mapping
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
-import pandas as pd
 from numpy.typing import ArrayLike
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 from landrisk import CAUTION, __version__
 from landrisk.errors import LandriskWarning, SolveError
@@ -109,6 +111,8 @@ def solve_many(scenario: Scenario, values: Mapping[str, ArrayLike]) -> pd.DataFr
         One row per landing: the varied inputs, then every result column of
         :class:`landrisk.model.LandingResult` (metres, m/s, seconds, flags).
     """
+    import pandas as pd
+
     res = solve_landings(scenario.case(values))
     frame = pd.DataFrame({k: np.broadcast_to(np.asarray(v), (res.size,)) for k, v in values.items()})
     for name in LandingResult.__dataclass_fields__:
@@ -217,6 +221,8 @@ def assessment_record(a: Assessment) -> dict[str, Any]:
 
 def percentile_table(a: Assessment) -> pd.DataFrame:
     """Percentiles of every phase with their intervals: one row per (phase, percentile)."""
+    import pandas as pd
+
     rows = []
     for name, label in PHASES.items():
         for p in a.percentiles[name]:
@@ -227,6 +233,8 @@ def percentile_table(a: Assessment) -> pd.DataFrame:
 
 def samples_table(a: Assessment) -> pd.DataFrame:
     """Every sample's uncertain inputs (if kept) and its phase distances, as a DataFrame."""
+    import pandas as pd
+
     return pd.DataFrame(dict(samples_frame_columns(a)))
 
 

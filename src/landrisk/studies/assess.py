@@ -60,7 +60,7 @@ COMPARISON_FACTORS: tuple[tuple[str, float, str], ...] = (
      "FAA SAFO 06012 (2006): at least 15 % over the actual landing distance"),
 )
 
-_OUTPUTS = ("total_m", "air_distance_m", "free_roll_m", "braking_m", "margin_m", "lda_m",
+_OUTPUTS = ("total_m", "air_distance_m", "free_roll_m", "braking_m", "margin_m",
             "runway_end_ground_speed", "overrun", "lift_exceeds_weight", "cannot_stop")
 
 
@@ -267,7 +267,8 @@ def samples_frame_columns(a: Assessment) -> Mapping[str, NDArray]:
     if a.inputs is not None:
         for j, k in enumerate(a.problem.names):
             cols[k] = a.inputs[:, j]
-    for k in ("air_distance_m", "free_roll_m", "braking_m", "total_m", "lda_m", "margin_m",
+    for k in ("air_distance_m", "free_roll_m", "braking_m", "total_m", "margin_m",
               "runway_end_ground_speed", "overrun"):
         cols[k] = a.outputs[k]
+    cols["lda_m"] = a.outputs["total_m"] + a.outputs["margin_m"]
     return cols

@@ -94,6 +94,8 @@ class Marginal:
             return np.quantile(self._values, u, method="linear")
         if self.family in ("normal", "truncnormal"):
             return self._normal_ppf(u)
+        if self.family == "lognormal":  # exp of a (truncated) normal: the fast normal path
+            return np.exp(self._normal_ppf(u))
         if self.truncated:
             fa, fb = self._base_cdf(self.lower), self._base_cdf(self.upper)
             return np.clip(self.base.inv(fa + u * (fb - fa)), self.lower, self.upper)
@@ -105,9 +107,16 @@ class Marginal:
         return float(self.base.fwd(x))
 
     def _normal_ppf(self, u: Array) -> Array:
-        mu, sd = self.params["mean"], self.params["sd"]
-        a = (self.lower - mu) / sd
-        b = (self.upper - mu) / sd
+        """Inverse of the (truncated) normal; for the lognormal, of its logarithm."""
+        if self.family == "lognormal":
+            mu, sd = self._log_params
+            with np.errstate(divide="ignore"):
+                lower, upper = np.log(self.lower), np.log(self.upper)
+        else:
+            mu, sd = self.params["mean"], self.params["sd"]
+            lower, upper = self.lower, self.upper
+        a = (lower - mu) / sd
+        b = (upper - mu) / sd
         if math.isinf(a) and math.isinf(b):
             return mu + sd * special.ndtri(u)
         # Work in the tail nearer to the interval, where Phi keeps its precision (Phi(-z) = 1 - Phi(z)).
@@ -117,18 +126,30 @@ class Marginal:
         else:
             pa, pb = special.ndtr(a), special.ndtr(b)
             z = special.ndtri(pa + u * (pb - pa))
-        return np.clip(mu + sd * z, self.lower, self.upper)
+        return np.clip(mu + sd * z, lower, upper)
+
+    @property
+    def _log_params(self) -> tuple[float, float]:
+        """(mean, sd) of ln X for the lognormal."""
+        p = self.params
+        if "median" in p:
+            return math.log(p["median"]), p["sigma_log"]
+        s = math.sqrt(math.log1p((p["sd"] / p["mean"]) ** 2))
+        return math.log(p["mean"]) - 0.5 * s * s, s
 
     def mean(self) -> float:
-        """The distribution's mean (by quadrature of the quantile function for truncated families)."""
-        if self.family in ("discrete", "empirical"):
-            if self.family == "discrete":
-                return float(np.sum(self._values * np.diff(np.concatenate([[0.0], self._cum]))))
+        """The distribution's mean: exact for untruncated families, by adaptive quadrature of the
+        quantile function (``scipy.integrate.quad``) for truncated ones."""
+        if self.family == "discrete":
+            return float(np.sum(self._values * np.diff(np.concatenate([[0.0], self._cum]))))
+        if self.family == "empirical":
             return float(np.mean(self._values))
-        if not self.truncated and self.family not in ("normal", "truncnormal"):
-            return float(self.base.mom(1))
-        x, w = np.polynomial.legendre.leggauss(200)
-        return float(0.5 * np.sum(w * self.ppf(0.5 * (x + 1.0))))
+        if not self.truncated:
+            return float(self.params["mean"]) if self.family == "normal" else float(self.base.mom(1))
+        from scipy.integrate import quad
+
+        return float(quad(lambda u: float(self.ppf(np.array([u]))[0]), 0.0, 1.0, limit=200,
+                          epsabs=0.0, epsrel=1e-10)[0])
 
     def describe(self) -> str:
         """Short text such as ``normal(mean=3, sd=1) on [0, 10]``."""
@@ -195,13 +216,12 @@ def make_marginal(family: str, params: Mapping[str, Any]) -> Marginal:
     if family == "lognormal":
         if "median" in p and "sigma_log" in p and not {"mean", "sd"} & set(p):
             _positive(p, "median", "sigma_log")
-            mu, s = math.log(p["median"]), p["sigma_log"]
         elif "mean" in p and "sd" in p and not {"median", "sigma_log"} & set(p):
             _positive(p, "mean", "sd")
-            s = math.sqrt(math.log1p((p["sd"] / p["mean"]) ** 2))
-            mu = math.log(p["mean"]) - 0.5 * s * s
         else:
             raise ValueError("lognormal needs either median and sigma_log, or mean and sd")
+        m = Marginal(family, p, max(lo, 0.0), hi)
+        mu, s = m._log_params
         return Marginal(family, p, max(lo, 0.0), hi, cp.LogNormal(mu, s))
     if family == "uniform":
         return Marginal(family, p, lo, hi, cp.Uniform(lo, hi))
@@ -289,6 +309,11 @@ class Problem:
             object.__setattr__(self, "_cholesky", chol)
 
     @property
+    def _correlated(self) -> NDArray[np.intp]:
+        r = np.asarray(self.spearman)
+        return np.flatnonzero(np.any((r != 0) & ~np.eye(len(r), dtype=bool), axis=1))
+
+    @property
     def dimension(self) -> int:
         """Number of uncertain inputs."""
         return len(self.names)
@@ -297,8 +322,10 @@ class Problem:
         """Map uniform points u[n, d] in (0, 1)^d to input values x[n, d] (copula, then marginals)."""
         u = np.asarray(u, dtype=float)
         if self._cholesky is not None:
-            z = special.ndtri(u) @ self._cholesky.T
-            u = special.ndtr(z)
+            # Only the inputs that take part in a correlation go through the normal space.
+            c = self._correlated
+            u = u.copy()
+            u[:, c] = special.ndtr(special.ndtri(u[:, c]) @ self._cholesky[np.ix_(c, c)].T)
         return np.column_stack([m.ppf(u[:, j]) for j, m in enumerate(self.marginals)]) if u.size else \
             np.empty((0, self.dimension))
 

@@ -58,6 +58,14 @@ def _order_statistic_indices(n: int, q: float, conf: float) -> tuple[int, int]:
     return int(dist.ppf(a)) - 1, int(dist.isf(a))
 
 
+def _linear_quantile(xs: NDArray[np.float64], q: float) -> float:
+    """numpy's default ("linear", Hyndman & Fan definition 7) quantile of an ascending array."""
+    h = (xs.size - 1) * q
+    lo = int(np.floor(h))
+    hi = min(lo + 1, xs.size - 1)
+    return float(xs[lo] + (h - lo) * (xs[hi] - xs[lo]))
+
+
 def percentiles(
     x: ArrayLike, ps: ArrayLike, conf: float = 0.95, *, presorted: bool = False
 ) -> list[Percentile]:
@@ -78,7 +86,7 @@ def percentiles(
         if lo < 0 or hi >= n:
             out.append(Percentile(float(p), None, None, None, False))
             continue
-        value = float(np.quantile(xs, q, method="linear"))
+        value = _linear_quantile(xs, q)
         out.append(Percentile(float(p), value, float(xs[lo]), float(xs[hi]), True))
     return out
 
