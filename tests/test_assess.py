@@ -228,6 +228,8 @@ def test_cli_assess_writes_files_with_provenance(tmp_path: Path) -> None:
                                + samples["braking_m"], rtol=1e-9)
     for fig in ("exceedance.png", "exceedance.svg"):
         assert b'"seed": 7' in (out / fig).read_bytes()
+    assert f"Files written:\n  {out / 'summary.json'}" in r.output
+    assert (out / "summary.json").stat().st_mode & 0o044  # readable like any file the user writes
     again = run("assess", "--samples", "3000", "--out", str(out))
     assert again.exit_code == 2 and "--force" in again.stderr
     assert run("assess", "--samples", "3000", "--out", str(out), "--force").exit_code == 0

@@ -46,6 +46,12 @@ def test_every_example_scenario_loads_and_solves(path: Path) -> None:
     assert "invented" in text  # example data is labelled as invented
     res = solve_one(load_scenario(path).case())
     assert 0 < res.total_m[0] < 5_000
+    from landrisk import api
+
+    scenario, uncertain = api.load_study(path)
+    assert uncertain.inputs  # every example has uncertain inputs for `assess`
+    a = api.assess(scenario, uncertain, samples=2000, seed=1)
+    assert np.all(np.isfinite(a.outputs["total_m"]))
 
 
 def test_defaults_of_a_minimal_file() -> None:

@@ -94,9 +94,9 @@ def render_assess(a: Assessment, written: list[str] | None = None) -> str:
         f"Scenario: {s.name} ({s.source})" + (f" with {', '.join(s.overrides)}" if s.overrides else ""),
         f"{st.samples:,} samples ({st.sampler}, seed {st.seed}); {a.problem.dimension} uncertain inputs:",
     ]
-    written = a.record.get("inputs", {})
+    specs = a.record.get("inputs", {})
     for name, m in zip(a.problem.names, a.problem.marginals, strict=True):
-        lines.append(f"  {name:<34}{_as_written(written.get(name, {}).get('written')) or m.describe()}")
+        lines.append(f"  {name:<34}{_as_written(specs.get(name, {}).get('written')) or m.describe()}")
     if a.problem.spearman is not None:
         lines.append("  rank correlations (Gaussian copula, an assumption): " + ", ".join(
             f"{a.problem.names[i]} ~ {a.problem.names[j]} {a.problem.spearman[i, j]:+.2f}"
