@@ -216,6 +216,7 @@ def test_cli_assess_writes_files_with_provenance(tmp_path: Path) -> None:
     summary = json.loads((out / "summary.json").read_text(encoding="utf-8"))
     assert (summary["seed"], summary["sampler"], summary["samples"]) == (7, "sobol", 3000)
     assert summary["inputs"]["runway.lda"] == 1900.0 and "scenario_text" in summary
+    assert set(summary["files"].values()) == names  # the summary references every file
     for name in ("percentiles.csv", "samples.csv"):
         head = (out / name).read_text(encoding="utf-8").splitlines()[:12]
         assert any(line.startswith("# version:") for line in head)

@@ -249,7 +249,6 @@ def write_assessment(
     header = comment_header({**_provenance(a), "inputs": dict(a.scenario.values),
                              "uncertain": record["uncertain"]})
     files: dict[str, str | bytes] = {
-        "summary.json": json.dumps(record, indent=2, default=str) + "\n",
         "percentiles.csv": header + percentile_table(a).to_csv(index=False),
     }
     if figures:
@@ -261,4 +260,7 @@ def write_assessment(
                 files[f"{stem}.{fmt}"] = figure_bytes(make(a), fmt, meta)
     if a.inputs is not None:
         files["samples.csv"] = header + samples_table(a).to_csv(index=False)
+    record["files"] = {"summary": "summary.json", **{
+        name.rsplit(".", 1)[0] if name.endswith(".csv") else name: name for name in files}}
+    files = {"summary.json": json.dumps(record, indent=2, default=str) + "\n", **files}
     return write_files(Path(folder), files, force=force)
