@@ -32,8 +32,18 @@ from landrisk.io import load_study as _load_study
 from landrisk.io.config import demo_text
 from landrisk.io.output import comment_header, write_files, write_text_new
 from landrisk.model import KEYS, LandingResult, Scenario, SingleLanding, solve_landings, solve_one
-from landrisk.studies import PHASES, Assessment, AssessSettings, samples_frame_columns, summary_record
+from landrisk.studies import (
+    PHASES,
+    Assessment,
+    AssessSettings,
+    Ranking,
+    RankSettings,
+    ranking_record,
+    samples_frame_columns,
+    summary_record,
+)
 from landrisk.studies import assess as _assess
+from landrisk.studies import rank as _rank
 
 __all__ = [
     "AssessSettings",
@@ -44,11 +54,15 @@ __all__ = [
     "load",
     "load_study",
     "percentile_table",
+    "rank",
+    "rank_record",
+    "rank_table",
     "samples_table",
     "solve",
     "solve_many",
     "solve_record",
     "write_assessment",
+    "write_ranking",
     "write_starter",
 ]
 
@@ -263,4 +277,63 @@ def write_assessment(
     record["files"] = {"summary": "summary.json", **{
         name.rsplit(".", 1)[0] if name.endswith(".csv") else name: name for name in files}}
     files = {"summary.json": json.dumps(record, indent=2, default=str) + "\n", **files}
+    return write_files(Path(folder), files, force=force)
+
+
+def rank(
+    scenario: Scenario,
+    uncertain: UncertainSet,
+    *,
+    method: str = "pce",
+    calls: int | None = None,
+    order: int | None = None,
+    seed: int = 1,
+    mc_check: int = 100_000,
+) -> Ranking:
+    """Rank the uncertain inputs by Sobol indices (polynomial chaos or Monte Carlo); see studies.rank."""
+    for key in uncertain.fixed:
+        warnings.warn(f"{key} is fixed by --set; its distribution is not used", LandriskWarning,
+                      stacklevel=2)
+    settings = RankSettings(method=method, calls=calls, order=order, seed=seed, mc_check=mc_check)
+    return _rank(scenario, uncertain.problem(), settings)
+
+
+def _rank_provenance(r: Ranking) -> dict[str, Any]:
+    s = r.scenario
+    return {"tool": "landrisk", "version": __version__, "caution": CAUTION, "scenario": s.name,
+            "source": s.source, "overrides": list(s.overrides), "seed": r.settings.seed, "method": r.method}
+
+
+def rank_record(r: Ranking) -> dict[str, Any]:
+    """Everything about a ranking, JSON-ready: provenance, resolved inputs, results."""
+    return {**_rank_provenance(r), **ranking_record(r), "inputs_used": dict(r.scenario.values),
+            "scenario_text": r.scenario.text}
+
+
+def rank_table(r: Ranking) -> pd.DataFrame:
+    """One row per input: first-order and total index (with intervals for Monte Carlo) and swings."""
+    import pandas as pd
+
+    return pd.DataFrame([{"input": i.name, "first_order": i.first, "total": i.total,
+                          "first_order_ci95_lo": i.first_ci[0] if i.first_ci else None,
+                          "first_order_ci95_hi": i.first_ci[1] if i.first_ci else None,
+                          "total_ci95_lo": i.total_ci[0] if i.total_ci else None,
+                          "total_ci95_hi": i.total_ci[1] if i.total_ci else None,
+                          "low_value": i.p5, "high_value": i.p95, "swing_total_m": i.swing_total_m,
+                          "swing_margin_m": i.swing_margin_m, "discrete": i.discrete} for i in r.inputs])
+
+
+def write_ranking(r: Ranking, folder: str | Path, *, force: bool = False) -> list[Path]:
+    """Write ranking.json, indices.csv and the index and tornado figures (PNG and SVG)."""
+    from landrisk.plotting import RANK_FIGURES, figure_bytes
+
+    record = rank_record(r)
+    header = comment_header({**_rank_provenance(r), "inputs": dict(r.scenario.values)})
+    files: dict[str, str | bytes] = {"indices.csv": header + rank_table(r).to_csv(index=False)}
+    meta = {**_rank_provenance(r), "inputs": dict(r.scenario.values)}
+    for stem, make in RANK_FIGURES.items():
+        for fmt in ("png", "svg"):
+            files[f"{stem}.{fmt}"] = figure_bytes(make(r), fmt, meta)
+    record["files"] = sorted(["ranking.json", *files])
+    files = {"ranking.json": json.dumps(record, indent=2, default=str) + "\n", **files}
     return write_files(Path(folder), files, force=force)

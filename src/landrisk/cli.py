@@ -151,6 +151,56 @@ def assess(config: str | None, samples: int, seed: int, sampler: str, overrides:
         click.echo(report.render_assess(result, written))
 
 
+def _order(value: str) -> int | None:
+    if value == "auto":
+        return None
+    try:
+        order = int(value)
+    except ValueError:
+        raise click.BadParameter(f"{value!r} is not a whole number or 'auto'") from None
+    if not 1 <= order <= 12:
+        raise click.BadParameter(f"{order} is outside 1..12")
+    return order
+
+
+@main.command(epilog=_HELP_CAUTION)
+@_config_argument
+@click.option("--method", type=click.Choice(["pce", "mc"]), default="pce", show_default=True,
+              help="Polynomial chaos surrogate, or Monte Carlo pick-freeze estimators on the solver.")
+@click.option("--order", default="auto", show_default=True, metavar="N|auto",
+              help="Total order of the polynomial chaos, or chosen by leave-one-out error.")
+@click.option("--calls", type=click.IntRange(min=20), default=None,
+              help="Solver calls for the indices [pce: 600; mc: 8192 x (inputs + 2)].")
+@click.option("--seed", type=click.IntRange(min=0), default=1, show_default=True)
+@click.option("--mc-check", type=click.IntRange(min=0), default=100_000, show_default=True,
+              help="Monte Carlo solver runs to check the surrogate against (0: none).")
+@_set_option
+@click.option("--out", "out_dir", type=click.Path(file_okay=False),
+              help="Write ranking.json, indices.csv and the index and tornado figures to this folder.")
+@click.option("--force", is_flag=True, help="Replace existing output files.")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of the table.")
+@_reported
+def rank(config: str | None, method: str, order: str, calls: int | None, seed: int, mc_check: int,
+         overrides: tuple[str, ...], out_dir: str | None, force: bool, as_json: bool) -> None:
+    """Rank the uncertain inputs by their influence on the landing distance and on the overrun.
+
+    Prints first-order and total Sobol indices of the total distance for every uncertain input, the
+    one-at-a-time swings of the distance and of the margin, the surrogate's validation error and tail
+    check, and Sobol indices of the overrun indicator from the real solver.
+    """
+    from landrisk import api, report
+
+    scenario, uncertain = api.load_study(config, overrides)
+    result = api.rank(scenario, uncertain, method=method, calls=calls, order=_order(order), seed=seed,
+                      mc_check=mc_check if method == "pce" else 0)
+    written = [str(p) for p in api.write_ranking(result, out_dir, force=force)] if out_dir else None
+    if as_json:
+        click.echo(json.dumps({k: v for k, v in api.rank_record(result).items() if k != "scenario_text"},
+                              indent=2, default=str))
+    else:
+        click.echo(report.render_rank(result, written))
+
+
 @main.command(epilog=_HELP_CAUTION)
 @click.argument("path", type=click.Path(dir_okay=False))
 @click.option("--force", is_flag=True, help="Replace the file if it exists.")

@@ -13,13 +13,23 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from landrisk import CAUTION, __version__
-from landrisk.studies import Assessment
+from landrisk.model import KEYS
+from landrisk.studies import Assessment, Ranking
 from landrisk.uq import exceedance_curve, wilson_interval
 
 if TYPE_CHECKING:
     from matplotlib.figure import Figure
 
-__all__ = ["FIGURES", "convergence_figure", "exceedance_figure", "figure_bytes", "histogram_figure"]
+__all__ = [
+    "FIGURES",
+    "RANK_FIGURES",
+    "convergence_figure",
+    "exceedance_figure",
+    "figure_bytes",
+    "histogram_figure",
+    "indices_figure",
+    "tornado_figure",
+]
 
 
 def _pyplot() -> Any:
@@ -126,3 +136,60 @@ def figure_bytes(fig: Figure, fmt: str, record: dict[str, Any]) -> bytes:
     fig.savefig(buf, format=fmt, dpi=130, metadata=meta)
     plt.close(fig)
     return buf.getvalue()
+
+
+def indices_figure(r: Ranking) -> Figure:
+    """First-order and total Sobol indices of the total landing distance, per input."""
+    plt = _pyplot()
+    names = [i.name for i in r.inputs]
+    y = np.arange(len(names))
+    fig, ax = plt.subplots(figsize=(8, 0.5 * len(names) + 2.2))
+    ax.barh(y - 0.2, [i.first for i in r.inputs], height=0.4, label="first order")
+    ax.barh(y + 0.2, [i.total for i in r.inputs], height=0.4, label="total")
+    if r.method == "mc":
+        for k, i in enumerate(r.inputs):
+            ax.plot(i.total_ci, [k + 0.2] * 2, color="black", lw=1)
+            ax.plot(i.first_ci, [k - 0.2] * 2, color="black", lw=1)
+    ax.set_yticks(y, names, fontsize=8)
+    ax.invert_yaxis()
+    ax.set_xlabel("Sobol index of the total landing distance")
+    method = (f"polynomial chaos, {r.calls} solver calls" if r.method == "pce"
+              else f"Monte Carlo, {r.calls:,} solver calls")
+    ax.set_title(f"Which inputs drive the landing distance: {r.scenario.name} ({method})", fontsize=9)
+    ax.legend(fontsize=8)
+    ax.grid(True, axis="x", alpha=0.3)
+    fig.subplots_adjust(left=0.32, bottom=0.22)
+    fig.text(0.01, 0.01, f"landrisk {__version__} | scenario {r.scenario.name} ({r.scenario.source}) | seed "
+             f"{r.settings.seed}\n" + CAUTION, fontsize=6, va="bottom", ha="left", wrap=True)
+    return fig
+
+
+def tornado_figure(r: Ranking) -> Figure:
+    """One-at-a-time swings of the total distance and of the margin to the LDA, largest first."""
+    plt = _pyplot()
+    rows = sorted((i for i in r.inputs if np.isfinite(i.swing_total_m)), key=lambda i: -abs(i.swing_total_m))
+    fig, axes = plt.subplots(1, 2, figsize=(10, 0.5 * len(rows) + 2.4), sharey=True)
+    y = np.arange(len(rows))
+    for ax, attr, label in ((axes[0], "swing_total_m", "change of the total distance [m]"),
+                            (axes[1], "swing_margin_m", "change of the margin to the LDA [m]")):
+        vals = [getattr(i, attr) for i in rows]
+        ax.barh(y, vals, color=["tab:red" if v > 0 else "tab:blue" for v in vals] if attr == "swing_total_m"
+                else ["tab:blue" if v > 0 else "tab:red" for v in vals])
+        ax.axvline(0, color="black", lw=1)
+        ax.set_xlabel(label, fontsize=8)
+        ax.grid(True, axis="x", alpha=0.3)
+    def label(i: Any) -> str:
+        unit = KEYS[i.name].unit.replace("**", "^") if i.name in KEYS else ""
+        return f"{i.name}\n{i.p5:.4g} to {i.p95:.4g} {unit}".rstrip()
+
+    axes[0].set_yticks(y, [label(i) for i in rows], fontsize=7)
+    axes[0].invert_yaxis()
+    fig.suptitle(f"One-at-a-time swings (low to high value, others nominal): {r.scenario.name}", fontsize=9)
+    fig.subplots_adjust(left=0.27, bottom=0.22, wspace=0.08)
+    fig.text(0.01, 0.01, f"landrisk {__version__} | scenario {r.scenario.name} ({r.scenario.source}); red: "
+             "longer landing / smaller margin\n" + CAUTION, fontsize=6, va="bottom", ha="left", wrap=True)
+    return fig
+
+
+#: file stem -> figure function, for a ranking
+RANK_FIGURES = {"indices": indices_figure, "tornado": tornado_figure}

@@ -2,12 +2,14 @@
 
 from __future__ import annotations
 
+import numpy as np
+
 from landrisk import CAUTION, __version__
 from landrisk.model import SingleLanding
-from landrisk.studies import Assessment
+from landrisk.studies import Assessment, Ranking
 from landrisk.units import convert
 
-__all__ = ["render_assess", "render_solve"]
+__all__ = ["render_assess", "render_rank", "render_solve"]
 
 
 def _m_ft(label: str, metres: float, note: str = "") -> str:
@@ -142,6 +144,72 @@ def render_assess(a: Assessment, written: list[str] | None = None) -> str:
                      f"{a.flags['cannot_stop']} that cannot stop (counted as overruns).")
     if st.sampler != "random":
         lines.append(f"Intervals assume independent samples; for {st.sampler} points they are conservative.")
+    if written:
+        lines += ["", "Files written:"] + [f"  {w}" for w in written]
+    lines += ["", CAUTION]
+    return "\n".join(lines)
+
+
+_TAIL_FAILED = "FAILED - the surrogate's P99 and P(overrun) are not reliable"
+
+
+def render_rank(r: Ranking, written: list[str] | None = None) -> str:
+    """The ranking of the uncertain inputs as a readable table."""
+    s = r.scenario
+    lines = [
+        f"landrisk {__version__} - which uncertain inputs drive the landing distance",
+        f"Scenario: {s.name} ({s.source})" + (f" with {', '.join(s.overrides)}" if s.overrides else ""),
+    ]
+    if r.method == "pce":
+        c = r.chaos
+        lines += [
+            f"Method: polynomial chaos, order {c['order']} (q-norm {c['q_norm']:g}, {c['terms']} terms) per "
+            f"branch, {c['branches']} branch(es); {r.calls} solver calls ({c['training_calls']} training + "
+            f"{c['holdout_calls']} hold-out per branch)",
+            f"  hold-out error of the total distance: {100 * c['holdout_rel_error']:.2f} % of its sd (RMS), "
+            f"largest {c['holdout_max_error_m']:.1f} m ({100 * c['holdout_max_rel_error']:.2f} %)",
+        ]
+    else:
+        lines.append(f"Method: Monte Carlo pick-freeze (Saltelli 2010 first order, Jansen total), "
+                     f"{r.calls:,} solver calls, {100 * r.settings.confidence:g} % bootstrap intervals")
+    header = f"  {'input':<34}{'first order':>12}{'total':>9}{'swing of total':>17}{'swing of margin':>17}"
+    lines += ["", header]
+    for i in r.inputs:
+        ci = f"  [{i.total_ci[0]:.3f}, {i.total_ci[1]:.3f}]" if i.total_ci else ""
+        sw = (f"{i.swing_total_m:+14.0f} m{i.swing_margin_m:+15.0f} m" if np.isfinite(i.swing_total_m)
+              else f"{'-':>16}{'-':>17}")
+        lines.append(f"  {i.name:<34}{i.first:12.3f}{i.total:9.3f}{sw}{ci}")
+    lines.append("  (swing: the input at its 5th and then 95th percentile, a discrete input at its least and "
+                 "greatest value, the others nominal)")
+    if r.second_order:
+        pairs = ", ".join(f"{a} x {b} {v:.3f}" for a, b, v in r.second_order)
+        lines.append(f"  largest interactions: {pairs}")
+    if r.method == "pce":
+        sur, c = r.surrogate, r.chaos
+        by = {p.p: p for p in sur["percentiles"]}
+        lines += ["", f"From {sur['samples']:,} surrogate samples: mean {sur['mean_m']:.1f} m, sd "
+                  f"{sur['sd_m']:.1f} m, P50 {by[50.0].value:.1f} m, P99 {by[99.0].value:.1f} m, "
+                  f"P(overrun) {sur['p_overrun'].text()}",
+                  f"  tail check on the real solver ({c['tail_check_calls']} samples in the tail and near "
+                  f"the runway end): RMS error {100 * c['tail_rel_rms']:.2f} %, largest "
+                  f"{100 * c['tail_max_rel']:.1f} %, {c['misclassified_overruns']} of {c['near_runway_end']} "
+                  "overruns misclassified: " + ("passed" if c["tail_ok"] else _TAIL_FAILED)]
+        if r.mc_check:
+            m = r.mc_check
+            d = m["rel_diff"]
+            lines.append(f"  Monte Carlo check ({m['samples']:,} solver runs): mean {m['mean_m']:.1f} m "
+                         f"({100 * d['mean']:+.2f} %), sd {m['sd_m']:.1f} m ({100 * d['sd']:+.2f} %), P50 "
+                         f"{m['p50_m']:.1f} m ({100 * d['p50']:+.2f} %), P99 {m['p99_m']:.1f} m "
+                         f"({100 * d['p99']:+.2f} %), P(overrun) {m['p_overrun'].text()}")
+    if r.risk is not None:
+        lines += ["", "Influence on the overrun itself: Sobol indices of the overrun indicator, Monte Carlo "
+                  f"on the solver ({r.risk_events} overruns in {2 * r.settings.risk_samples:,} samples)"]
+        order = np.argsort(-r.risk.total)
+        for k in order:
+            lines.append(f"  {r.risk.names[k]:<34}{r.risk.first[k]:12.3f}{r.risk.total[k]:9.3f}  "
+                         f"[{r.risk.total_ci[k, 0]:.3f}, {r.risk.total_ci[k, 1]:.3f}]")
+    if r.warnings:
+        lines += [""] + [f"Note: {w}" for w in r.warnings]
     if written:
         lines += ["", "Files written:"] + [f"  {w}" for w in written]
     lines += ["", CAUTION]

@@ -49,6 +49,13 @@ class Scenario:
         """The scenario's short name."""
         return str(self.values["scenario.name"])
 
+    def with_values(self, **changes: Any) -> Scenario:
+        """The same scenario with some keys (dotted names as keyword-unpacked dict) set to new values."""
+        unknown = set(changes) - set(self.values)
+        if unknown:
+            raise KeyError(f"not keys of the scenario: {sorted(unknown)}")
+        return Scenario({**self.values, **changes}, self.source, self.text, self.overrides)
+
     def scalar_values(self) -> dict[str, Any]:
         """The keys that hold numbers (those a sample may replace), with their values."""
         return {k: v for k, v in self.values.items() if KEYS[k].scalar}

@@ -12,6 +12,7 @@ from landrisk.studies.assess import (
     samples_frame_columns,
     summary_record,
 )
+from landrisk.studies.rank import InputRank, Ranking, RankSettings, rank, ranking_record
 
 __all__ = [
     "COMPARISON_FACTORS",
@@ -20,8 +21,13 @@ __all__ = [
     "AssessSettings",
     "Assessment",
     "ComparisonLine",
+    "InputRank",
+    "RankSettings",
+    "Ranking",
     "assess",
     "landing_model",
+    "rank",
+    "ranking_record",
     "samples_frame_columns",
     "summary_record",
 ]

@@ -4,6 +4,7 @@ This layer knows only vectorised callables f(X[n, d]) -> {name: y[n]} and distri
 nothing of landrisk's physics or model.
 """
 
+from landrisk.uq.chaos import ChaosFit, ChaosSpace, SobolIndices, fit_chaos, sobol_indices
 from landrisk.uq.distributions import (
     FAMILIES,
     Marginal,
@@ -13,6 +14,7 @@ from landrisk.uq.distributions import (
 )
 from landrisk.uq.montecarlo import MonteCarloRun, run_monte_carlo, sample
 from landrisk.uq.sampling import SAMPLERS, normalize_seed, uniform_chunks
+from landrisk.uq.sensitivity import MonteCarloSobol, sobol_monte_carlo
 from landrisk.uq.stats import (
     EventProbability,
     Percentile,
@@ -27,14 +29,19 @@ from landrisk.uq.stats import (
 __all__ = [
     "FAMILIES",
     "SAMPLERS",
+    "ChaosFit",
+    "ChaosSpace",
     "EventProbability",
     "Marginal",
     "MonteCarloRun",
+    "MonteCarloSobol",
     "Percentile",
     "Problem",
+    "SobolIndices",
     "convergence",
     "event_probability",
     "exceedance_curve",
+    "fit_chaos",
     "make_marginal",
     "mean_interval",
     "normal_correlation_from_spearman",
@@ -42,6 +49,8 @@ __all__ = [
     "percentiles",
     "run_monte_carlo",
     "sample",
+    "sobol_indices",
+    "sobol_monte_carlo",
     "uniform_chunks",
     "wilson_interval",
 ]
