@@ -170,7 +170,7 @@ def _order(value: str) -> int | None:
 @click.option("--order", default="auto", show_default=True, metavar="N|auto",
               help="Total order of the polynomial chaos, or chosen by leave-one-out error.")
 @click.option("--calls", type=click.IntRange(min=20), default=None,
-              help="Solver calls for the indices [pce: 600; mc: 8192 x (inputs + 2)].")
+              help="Solver calls for the indices [pce: 1000; mc: 8192 x (inputs + 2)].")
 @click.option("--seed", type=click.IntRange(min=0), default=1, show_default=True)
 @click.option("--mc-check", type=click.IntRange(min=0), default=100_000, show_default=True,
               help="Monte Carlo solver runs to check the surrogate against (0: none).")

@@ -55,7 +55,7 @@ class RankSettings:
     """How the ranking is run."""
 
     method: str = "pce"
-    calls: int | None = None  # pce: training + hold-out calls (default 600); mc: n (d + 2) calls
+    calls: int | None = None  # pce: training + hold-out calls (default 1000); mc: n (d + 2) calls
     order: int | None = None  # None: chosen by leave-one-out error
     max_order: int = 6
     seed: int = 1
@@ -208,7 +208,7 @@ def rank(
         raise LandriskError("`rank --method pce` needs at least one continuous uncertain input")
     space = ChaosSpace(cont_problem)
     branches = _branches(problem, disc)
-    calls = s.calls or 600
+    calls = s.calls or 1000
     per_branch = calls // len(branches)
     n_hold = max(10, round(s.holdout_fraction * per_branch))
     n_train = per_branch - n_hold

@@ -1,0 +1,157 @@
+"""Sensitivity: polynomial chaos and Monte Carlo Sobol indices against analytic values and SALib."""
+
+import json
+from pathlib import Path
+
+import numpy as np
+import pytest
+from click.testing import CliRunner
+
+from landrisk import api
+from landrisk.cli import main
+from landrisk.uq import ChaosSpace, Problem, fit_chaos, make_marginal, sobol_indices, sobol_monte_carlo
+
+# Ishigami function, a = 7, b = 0.1, x_i ~ U(-pi, pi) (Ishigami & Homma 1990; analytic indices as
+# tabulated in Saltelli et al., Global Sensitivity Analysis: The Primer, Wiley 2008).
+ISHIGAMI_S1 = np.array([0.3139, 0.4424, 0.0])
+ISHIGAMI_ST = np.array([0.5576, 0.4424, 0.2437])
+ISHIGAMI = Problem.independent(("x1", "x2", "x3"), tuple(
+    make_marginal("uniform", {"lower": -np.pi, "upper": np.pi}) for _ in range(3)))
+
+
+def ishigami(x):
+    return np.sin(x[:, 0]) + 7 * np.sin(x[:, 1]) ** 2 + 0.1 * x[:, 2] ** 4 * np.sin(x[:, 0])
+
+
+def pce_indices(problem, f, calls, seed=0, **kw):
+    space = ChaosSpace(problem)
+    xi = space.design(calls, seed)
+    fit = fit_chaos(space, xi, f(space.to_inputs(xi))[:, None], ["y"], **kw)
+    return sobol_indices(fit.index, [fit.coefficients[:, 0]], names=problem.names), fit
+
+
+def test_ishigami_by_chaos_with_200_calls() -> None:
+    si, fit = pce_indices(ISHIGAMI, ishigami, 200, max_order=16)
+    assert fit.terms <= 100  # oversampling ratio >= 2
+    np.testing.assert_allclose(si.first, ISHIGAMI_S1, atol=0.01)
+    np.testing.assert_allclose(si.total, ISHIGAMI_ST, atol=0.01)
+    assert si.mean == pytest.approx(3.5, abs=0.05)  # analytic mean a/2 = 3.5 (Saltelli et al. 2008)
+
+
+def test_ishigami_by_monte_carlo_within_the_bootstrap_interval() -> None:
+    mc = sobol_monte_carlo(ISHIGAMI, ishigami, 2**13, seed=3)
+    for i in range(3):
+        assert mc.first_ci[i, 0] <= ISHIGAMI_S1[i] <= mc.first_ci[i, 1]
+        assert mc.total_ci[i, 0] <= ISHIGAMI_ST[i] <= mc.total_ci[i, 1]
+    assert mc.variance == pytest.approx(13.845, rel=0.03)  # analytic variance (Saltelli et al. 2008)
+
+
+def test_sobol_g_function_by_chaos_with_500_calls() -> None:
+    # Saltelli & Sobol' 1995 (Reliab. Eng. Syst. Saf. 50:225): V_i = 1/(3(1 + a_i)^2),
+    # S_i = V_i / (prod(1 + V_j) - 1), ST_i = V_i prod_{j != i}(1 + V_j) / (prod(1 + V_j) - 1).
+    a = np.array([0, 1, 4.5, 9, 99, 99, 99, 99])
+    v = 1 / (3 * (1 + a) ** 2)
+    s1 = v / (np.prod(1 + v) - 1)
+    st = v * np.prod(1 + v) / (1 + v) / (np.prod(1 + v) - 1)
+    problem = Problem.independent(tuple(f"x{i}" for i in range(8)), tuple(
+        make_marginal("uniform", {"lower": 0.0, "upper": 1.0}) for _ in range(8)))
+    si, _ = pce_indices(problem, lambda x: np.prod((np.abs(4 * x - 2) + a) / (1 + a), axis=1), 500,
+                        max_order=12, q_norms=(1.0, 0.75, 0.5, 0.35))
+    np.testing.assert_allclose(si.first, s1, atol=0.02)
+    np.testing.assert_allclose(si.total, st, atol=0.02)
+
+
+def test_linear_model_indices_are_squared_standardised_coefficients() -> None:
+    # Y = sum c_i X_i with independent X_i: S_i = ST_i = c_i^2 Var X_i / sum_j c_j^2 Var X_j (exact).
+    marg = (make_marginal("normal", {"mean": 2.0, "sd": 3.0}),
+            make_marginal("uniform", {"lower": 0, "upper": 6}),
+            make_marginal("normal", {"mean": -1.0, "sd": 0.5}))
+    coef = np.array([1.5, -2.0, 4.0])
+    var = np.array([9.0, 3.0, 0.25]) * coef**2
+    si, _ = pce_indices(Problem.independent(("a", "b", "c"), marg), lambda x: x @ coef + 7.0, 40, order=1)
+    np.testing.assert_allclose(si.first, var / var.sum(), rtol=1e-10)
+    np.testing.assert_allclose(si.total, var / var.sum(), rtol=1e-10)
+    assert si.variance == pytest.approx(var.sum(), rel=1e-10)
+
+
+@pytest.fixture(scope="module")
+def demo_ranking():
+    scenario, uncertain = api.load_study()
+    return api.rank(scenario, uncertain, calls=1000, seed=1, mc_check=0), scenario, uncertain
+
+
+def test_demo_surrogate_matches_a_million_sample_monte_carlo(demo_ranking) -> None:
+    r, scenario, uncertain = demo_ranking
+    mc = api.assess(scenario, uncertain, samples=1_000_000, seed=11)
+    by = {p.p: p.value for p in r.surrogate["percentiles"]}
+    mc_pct = {p.p: p.value for p in mc.percentiles["total_m"]}
+    assert r.surrogate["mean_m"] == pytest.approx(mc.moments["total_m"][0], rel=0.005)
+    assert r.surrogate["sd_m"] == pytest.approx(mc.moments["total_m"][1], rel=0.005)
+    assert by[50.0] == pytest.approx(mc_pct[50.0], rel=0.005)
+    assert by[99.0] == pytest.approx(mc_pct[99.0], rel=0.005)
+    assert r.calls <= 1000
+
+
+def test_demo_indices_agree_with_salib(demo_ranking) -> None:
+    # SALib (test-only reference): Saltelli sampling and Sobol analysis on the real solver, in the same
+    # independent uniform variables (the copula's Cholesky order) as the chaos germs.
+    from SALib.analyze import sobol as salib_analyze
+    from SALib.sample import sobol as salib_sample
+
+    from landrisk.studies import landing_model
+
+    r, scenario, uncertain = demo_ranking
+    problem = uncertain.problem()
+    d = problem.dimension
+    spec = {"num_vars": d, "names": list(problem.names), "bounds": [[0, 1]] * d}
+    u = np.clip(salib_sample.sample(spec, 2**13, seed=2), 1e-12, 1 - 1e-12)
+    y = landing_model(scenario, problem.names)(problem.transform(u))["total_m"]
+    ref = salib_analyze.analyze(spec, y, seed=2)
+    ours = {i.name: i for i in r.inputs}
+    for k, name in enumerate(problem.names):
+        assert ours[name].first == pytest.approx(ref["S1"][k], abs=0.03), name
+        assert ours[name].total == pytest.approx(ref["ST"][k], abs=0.03), name
+
+
+def test_indices_are_consistent(demo_ranking) -> None:
+    r, _, _ = demo_ranking
+    for i in r.inputs:
+        assert 0 <= i.first <= i.total + 1e-12 <= 1 + 1e-12
+    assert sum(i.first for i in r.inputs) <= 1 + 1e-9
+    assert r.chaos["holdout_rel_error"] < 0.05 and r.chaos["terms"] * 2 <= r.chaos["training_calls"]
+
+
+def run(*args: str):
+    return CliRunner().invoke(main, list(args))
+
+
+def test_cli_rank_json(tmp_path: Path) -> None:
+    out = tmp_path / "rank"
+    r = run("rank", "--calls", "400", "--mc-check", "0", "--json", "--out", str(out))
+    assert r.exit_code == 0, r.output
+    data = json.loads(r.stdout)
+    for key in ("method", "calls", "inputs", "order", "holdout_rel_error", "version", "seed"):
+        assert key in data
+    assert data["method"] == "pce" and data["calls"] == 400
+    assert {"name", "first_order", "total"} <= set(data["inputs"][0])
+    names = {p.name for p in out.iterdir()}
+    assert names == {"ranking.json", "indices.csv"} | {f"{s}.{e}" for s in ("indices", "tornado")
+                                                        for e in ("png", "svg")}
+
+
+def test_cli_rank_monte_carlo_and_table() -> None:
+    r = run("rank", "configs/turboprop-grass-strip.toml", "--method", "mc", "--calls", "7000")
+    assert r.exit_code == 0, r.output
+    for text in ("Monte Carlo pick-freeze", "first order", "swing of total", "overrun indicator",
+                 "not an operational or certified performance source"):
+        assert text in r.output
+
+
+@pytest.mark.parametrize(("args", "needle"), [
+    (("rank", "--order", "zero"), "not a whole number"),
+    (("rank", "--calls", "25"), "too few"),
+])
+def test_cli_rank_bad_options(args, needle) -> None:
+    r = run(*args)
+    assert r.exit_code == 2 and needle in r.output + r.stderr
+    assert "Traceback" not in r.output + r.stderr
