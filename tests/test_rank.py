@@ -135,8 +135,8 @@ def test_cli_rank_json(tmp_path: Path) -> None:
     assert data["method"] == "pce" and data["calls"] == 400
     assert {"name", "first_order", "total"} <= set(data["inputs"][0])
     names = {p.name for p in out.iterdir()}
-    assert names == {"ranking.json", "indices.csv"} | {f"{s}.{e}" for s in ("indices", "tornado")
-                                                        for e in ("png", "svg")}
+    stems = ("indices", "tornado", "surrogate-exceedance")
+    assert names == {"ranking.json", "indices.csv"} | {f"{s}.{e}" for s in stems for e in ("png", "svg")}
 
 
 def test_cli_rank_monte_carlo_and_table() -> None:

@@ -332,6 +332,8 @@ def write_ranking(r: Ranking, folder: str | Path, *, force: bool = False) -> lis
     files: dict[str, str | bytes] = {"indices.csv": header + rank_table(r).to_csv(index=False)}
     meta = {**_rank_provenance(r), "inputs": dict(r.scenario.values)}
     for stem, make in RANK_FIGURES.items():
+        if stem == "surrogate-exceedance" and r.method != "pce":
+            continue
         for fmt in ("png", "svg"):
             files[f"{stem}.{fmt}"] = figure_bytes(make(r), fmt, meta)
     record["files"] = sorted(["ranking.json", *files])

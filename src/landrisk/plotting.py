@@ -191,5 +191,39 @@ def tornado_figure(r: Ranking) -> Figure:
     return fig
 
 
-#: file stem -> figure function, for a ranking
-RANK_FIGURES = {"indices": indices_figure, "tornado": tornado_figure}
+def surrogate_exceedance_figure(r: Ranking) -> Figure:
+    """Exceedance curve of the total distance from the surrogate, beside the Monte Carlo check's."""
+    plt = _pyplot()
+    fig, ax = plt.subplots(figsize=(8, 5))
+    curves = [("surrogate", r.surrogate.get("sorted_total_m"))]
+    if r.mc_check:
+        label = f"Monte Carlo check, real solver ({r.mc_check['samples']:,})"
+        curves.append((label, r.mc_check["sorted_total_m"]))
+    floor = 1.0
+    for label, xs in curves:
+        if xs is None or xs.size == 0:
+            continue
+        grid = np.linspace(xs[0], xs[-1], 600)
+        p, _, _ = exceedance_curve(xs, grid)
+        keep = p > 0
+        ax.step(grid[keep], p[keep], where="post", label=label)
+        floor = min(floor, 0.5 / xs.size)
+    lda = float(r.scenario.values["runway.lda"])
+    ax.axvline(lda, color="black", lw=2, label=f"LDA {lda:.0f} m")
+    ax.set_yscale("log")
+    ax.set_ylim(floor, 1)
+    ax.set_xlabel("total landing distance from the screen height x [m]")
+    ax.set_ylabel("probability that the distance exceeds x")
+    verdict = "passed" if r.chaos.get("tail_ok") else "FAILED: the surrogate's tail is not reliable"
+    ax.set_title(f"Surrogate exceedance curve: {r.scenario.name} (tail check {verdict})", fontsize=9)
+    ax.grid(True, which="both", alpha=0.3)
+    ax.legend(fontsize=8, loc="lower left")
+    fig.subplots_adjust(bottom=0.2)
+    fig.text(0.01, 0.01, f"landrisk {__version__} | scenario {r.scenario.name} ({r.scenario.source}) | seed "
+             f"{r.settings.seed}\n" + CAUTION, fontsize=6, va="bottom", ha="left", wrap=True)
+    return fig
+
+
+#: file stem -> figure function, for a ranking (the exceedance figure only with polynomial chaos)
+RANK_FIGURES = {"indices": indices_figure, "tornado": tornado_figure,
+                "surrogate-exceedance": surrogate_exceedance_figure}

@@ -296,7 +296,8 @@ def rank(
                         "and P(overrun) are not reliable (use landrisk assess)")
     p_over: EventProbability = event_probability(int(np.sum(margin < 0)), total.size, s.confidence)
     surrogate = {"samples": int(total.size), "mean_m": float(total_si.mean),
-                 "sd_m": float(np.sqrt(total_si.variance)), "percentiles": surrogate_pct, "p_overrun": p_over}
+                 "sd_m": float(np.sqrt(total_si.variance)), "percentiles": surrogate_pct, "p_overrun": p_over,
+                 "sorted_total_m": sorted_total}
 
     mc_check: dict[str, Any] = {}
     if s.mc_check > 0:
@@ -304,7 +305,8 @@ def rank(
         mc_pct = {p.p: p for p in a.percentiles["total_m"]}
         sur_pct = {p.p: p for p in surrogate_pct}
         mc_check = {"samples": s.mc_check, "mean_m": a.moments["total_m"][0], "sd_m": a.moments["total_m"][1],
-                    "p50_m": mc_pct[50.0].value, "p99_m": mc_pct[99.0].value, "p_overrun": a.p_overrun}
+                    "p50_m": mc_pct[50.0].value, "p99_m": mc_pct[99.0].value, "p_overrun": a.p_overrun,
+                    "sorted_total_m": a.sorted_total()}
         mc_check["rel_diff"] = {
             "mean": surrogate["mean_m"] / mc_check["mean_m"] - 1,
             "sd": surrogate["sd_m"] / mc_check["sd_m"] - 1,
