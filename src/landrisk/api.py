@@ -38,12 +38,16 @@ from landrisk.studies import (
     AssessSettings,
     Ranking,
     RankSettings,
+    RareAssessment,
+    RareSettings,
     ranking_record,
+    rare_record,
     samples_frame_columns,
     summary_record,
 )
 from landrisk.studies import assess as _assess
 from landrisk.studies import rank as _rank
+from landrisk.studies import rare_assess as _rare_assess
 
 __all__ = [
     "AssessSettings",
@@ -57,12 +61,15 @@ __all__ = [
     "rank",
     "rank_record",
     "rank_table",
+    "rare",
+    "rare_full_record",
     "samples_table",
     "solve",
     "solve_many",
     "solve_record",
     "write_assessment",
     "write_ranking",
+    "write_rare",
     "write_starter",
 ]
 
@@ -338,4 +345,53 @@ def write_ranking(r: Ranking, folder: str | Path, *, force: bool = False) -> lis
             files[f"{stem}.{fmt}"] = figure_bytes(make(r), fmt, meta)
     record["files"] = sorted(["ranking.json", *files])
     files = {"ranking.json": json.dumps(record, indent=2, default=str) + "\n", **files}
+    return write_files(Path(folder), files, force=force)
+
+
+def rare(
+    scenario: Scenario,
+    uncertain: UncertainSet,
+    *,
+    method: str = "importance",
+    seed: int = 1,
+    target_cov: float = 0.1,
+    risk_curve: bool = True,
+) -> RareAssessment:
+    """P(overrun) by FORM, importance sampling or subset simulation; see studies.rare."""
+    for key in uncertain.fixed:
+        warnings.warn(f"{key} is fixed by --set; its distribution is not used", LandriskWarning,
+                      stacklevel=2)
+    settings = RareSettings(method=method, seed=seed, target_cov=target_cov, risk_curve=risk_curve)
+    return _rare_assess(scenario, uncertain.problem(), settings)
+
+
+def rare_full_record(r: RareAssessment) -> dict[str, Any]:
+    """Everything about a rare-event assessment, JSON-ready: provenance, inputs, results."""
+    s = r.scenario
+    return {"tool": "landrisk", "version": __version__, "caution": CAUTION, "scenario": s.name,
+            "source": s.source, "overrides": list(s.overrides), "sampler": "standard normal, seeded",
+            **rare_record(r), "inputs": dict(s.values),
+            "input_units": {k: spec.unit for k, spec in KEYS.items() if spec.kind == "quantity"}}
+
+
+def write_rare(r: RareAssessment, folder: str | Path, *, force: bool = False) -> list[Path]:
+    """Write summary.json and, with a risk curve, risk-curve.csv and its figure (PNG and SVG)."""
+    import pandas as pd
+
+    record = rare_full_record(r)
+    provenance = {k: record[k] for k in ("tool", "version", "caution", "scenario", "source", "overrides",
+                                          "method", "seed")}
+    files: dict[str, str | bytes] = {}
+    if r.risk_curve:
+        from landrisk.plotting import figure_bytes, risk_curve_figure
+
+        rc = r.risk_curve
+        table = pd.DataFrame({"lda_m": rc["lda_m"], "p_overrun_subset": rc["p_subset"],
+                              "p_overrun_mc": rc["p_mc"]})
+        files["risk-curve.csv"] = comment_header({**provenance, "inputs": dict(r.scenario.values)}) + \
+            table.to_csv(index=False)
+        for fmt in ("png", "svg"):
+            files[f"risk-curve.{fmt}"] = figure_bytes(risk_curve_figure(r), fmt, provenance)
+    record["files"] = sorted(["summary.json", *files])
+    files = {"summary.json": json.dumps(record, indent=2, default=str) + "\n", **files}
     return write_files(Path(folder), files, force=force)

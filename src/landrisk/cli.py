@@ -114,6 +114,9 @@ class _ProgressBar:
               help="Seed of the sampler; the same seed gives the same results.")
 @click.option("--sampler", type=click.Choice(["random", "sobol", "halton", "lhs"]), default="random",
               show_default=True, help="Pseudo-random, scrambled Sobol or Halton points, or Latin hypercube.")
+@click.option("--method", type=click.Choice(["mc", "importance", "subset", "form"]), default="mc",
+              show_default=True, help="Monte Carlo, or for rare overruns: importance sampling around the "
+              "design points, subset simulation, or FORM.")
 @_set_option
 @click.option("--out", "out_dir", type=click.Path(file_okay=False),
               help="Write summary.json, percentiles.csv and the figures (PNG, SVG) to this folder.")
@@ -123,20 +126,32 @@ class _ProgressBar:
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of the summary.")
 @click.option("--quiet", is_flag=True, help="No progress bar.")
 @_reported
-def assess(config: str | None, samples: int, seed: int, sampler: str, overrides: tuple[str, ...],
-           out_dir: str | None, save_samples: bool, force: bool, as_json: bool, quiet: bool) -> None:
+def assess(config: str | None, samples: int, seed: int, sampler: str, method: str,
+           overrides: tuple[str, ...], out_dir: str | None, save_samples: bool, force: bool, as_json: bool,
+           quiet: bool) -> None:
     """Probability of an overrun and percentile landing distances, by Monte Carlo.
 
     Samples the scenario's uncertain inputs ([uncertain."<key>"] tables), solves every landing, and
     reports percentiles of the landing distance and of each phase with their confidence intervals, the
     probability of an overrun and of stopping beyond the runway-end safety area with binomial
-    intervals, and comparison lines with regulatory factors.
+    intervals, and comparison lines with regulatory factors. For overrun probabilities far below 1/N,
+    --method importance, subset or form estimates the probability with its coefficient of variation,
+    the most likely overrun and a risk curve against runway length (--samples and --sampler then do
+    not apply).
     """
     from landrisk import api, report
 
     if save_samples and not out_dir:
         raise click.UsageError("--save-samples needs --out DIR")
     scenario, uncertain = api.load_study(config, overrides)
+    if method != "mc":
+        rare = api.rare(scenario, uncertain, method=method, seed=seed)
+        written = [str(p) for p in api.write_rare(rare, out_dir, force=force)] if out_dir else None
+        if as_json:
+            click.echo(json.dumps(api.rare_full_record(rare), indent=2, default=str))
+        else:
+            click.echo(report.render_rare(rare, written))
+        return
     bar = _ProgressBar(not quiet)
     try:
         result = api.assess(scenario, uncertain, samples=samples, seed=seed, sampler=sampler,

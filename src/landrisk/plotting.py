@@ -14,7 +14,7 @@ import numpy as np
 
 from landrisk import CAUTION, __version__
 from landrisk.model import KEYS
-from landrisk.studies import Assessment, Ranking
+from landrisk.studies import Assessment, Ranking, RareAssessment
 from landrisk.uq import exceedance_curve, wilson_interval
 
 if TYPE_CHECKING:
@@ -28,6 +28,7 @@ __all__ = [
     "figure_bytes",
     "histogram_figure",
     "indices_figure",
+    "risk_curve_figure",
     "tornado_figure",
 ]
 
@@ -227,3 +228,29 @@ def surrogate_exceedance_figure(r: Ranking) -> Figure:
 #: file stem -> figure function, for a ranking (the exceedance figure only with polynomial chaos)
 RANK_FIGURES = {"indices": indices_figure, "tornado": tornado_figure,
                 "surrogate-exceedance": surrogate_exceedance_figure}
+
+
+def risk_curve_figure(r: RareAssessment) -> Figure:
+    """P(overrun) against the landing distance available, one curve per method, on a log axis."""
+    plt = _pyplot()
+    rc = r.risk_curve
+    fig, ax = plt.subplots(figsize=(8, 5.2))
+    ax.plot(rc["lda_m"], rc["p_subset"], label=f"subset simulation ({rc['subset_calls']:,} solver calls)")
+    ax.plot(rc["lda_m"], rc["p_mc"], lw=2.5, alpha=0.6, label=f"Monte Carlo ({rc['mc_samples']:,} samples)")
+    pts = np.array(rc["form_points"])
+    ax.plot(pts[:, 0], pts[:, 1], "s", label=f"FORM ({rc['form_calls']:,} calls)")
+    lda = float(r.scenario.values["runway.lda"])
+    ax.errorbar([lda], [r.probability], yerr=[[r.probability - r.ci[0]], [r.ci[1] - r.probability]],
+                fmt="o", color="black", capsize=4,
+                label=f"{r.method} at the LDA {lda:.0f} m: {r.probability:.2e}")
+    ax.set_yscale("log")
+    ax.set_ylim(1e-10, 1)
+    ax.set_xlabel("landing distance available [m]")
+    ax.set_ylabel("probability of an overrun per landing")
+    ax.set_title(f"Overrun risk against runway length: {r.scenario.name}", fontsize=9)
+    ax.grid(True, which="both", alpha=0.3)
+    ax.legend(fontsize=7, loc="lower left")
+    fig.subplots_adjust(bottom=0.2)
+    fig.text(0.01, 0.01, f"landrisk {__version__} | scenario {r.scenario.name} ({r.scenario.source}) | seed "
+             f"{r.settings.seed}\n" + CAUTION, fontsize=6, va="bottom", ha="left", wrap=True)
+    return fig

@@ -6,10 +6,10 @@ import numpy as np
 
 from landrisk import CAUTION, __version__
 from landrisk.model import SingleLanding
-from landrisk.studies import Assessment, Ranking
+from landrisk.studies import Assessment, Ranking, RareAssessment
 from landrisk.units import convert
 
-__all__ = ["render_assess", "render_rank", "render_solve"]
+__all__ = ["render_assess", "render_rank", "render_rare", "render_solve"]
 
 
 def _m_ft(label: str, metres: float, note: str = "") -> str:
@@ -214,3 +214,73 @@ def render_rank(r: Ranking, written: list[str] | None = None) -> str:
         lines += ["", "Files written:"] + [f"  {w}" for w in written]
     lines += ["", CAUTION]
     return "\n".join(lines)
+
+
+_METHOD_NAMES = {"form": "FORM (first-order reliability method)", "importance":
+                 "importance sampling around the design points", "subset": "subset simulation"}
+
+
+def render_rare(r: RareAssessment, written: list[str] | None = None) -> str:
+    """A rare-event assessment: the probability with its interval, cost, design point and risk curve."""
+    s = r.scenario
+    conf = f"{100 * r.settings.confidence:g} %"
+    lda = float(s.values["runway.lda"])
+    lines = [
+        f"landrisk {__version__} - rare overrun probability",
+        f"Scenario: {s.name} ({s.source})" + (f" with {', '.join(s.overrides)}" if s.overrides else ""),
+        f"Method: {_METHOD_NAMES[r.method]}; seed {r.settings.seed}; {r.calls:,} solver calls",
+        "",
+        f"Runway: LDA {lda:.0f} m ({convert(lda, 'm', 'ft'):.0f} ft)",
+    ]
+    if not r.converged:
+        lines.append("  THE METHOD DID NOT CONVERGE: its figure below is not an estimate to rely on.")
+    if r.method == "form":
+        lines.append(f"  P(overrun) ~ Phi(-beta) = {r.probability:.3e}, beta = {r.beta:.3f} (FORM has no "
+                     "sampling interval; it is exact for a linear limit state only)")
+    else:
+        lines.append(f"  P(overrun) = {r.probability:.3e} [{r.ci[0]:.2e}, {r.ci[1]:.2e}] ({conf}), "
+                     f"coefficient of variation {100 * r.cov:.1f} %, "
+                     f"generalised beta {r.beta or float('nan'):.3f}")
+    for b in r.branches:
+        label = ", ".join(f"{k} = {v}" for k, v in b.values.items()) or "all landings"
+        cov = b.estimate.cov
+        extra = f", CoV {100 * cov:.1f} %" if cov and np.isfinite(cov) else ""
+        lines.append(f"    {label} (probability {b.probability:g}): {b.estimate.probability:.3e}{extra}, "
+                     f"{b.estimate.calls:,} calls")
+    if r.cross_check_probability:
+        p, ci, calls = r.cross_check_probability
+        lines.append(f"  cross-check by subset simulation: {p:.3e} [{ci[0]:.2e}, {ci[1]:.2e}] "
+                     f"({calls:,} calls)")
+    if r.design_point:
+        lines += ["", "The most likely overrun (design point of the dominant branch) and each input's "
+                  "importance alpha^2:"]
+        for k, v in r.design_point.items():
+            a2 = r.importance.get(k)
+            shown = _show(k, v)
+            nominal = _show(k, s.values[k]) if s.values.get(k) is not None else "-"
+            tail = f"   alpha^2 {a2:.3f}" if a2 is not None else ""
+            lines.append(f"  {k:<34}{shown:>16}   (nominal {nominal}){tail}")
+    if r.risk_curve:
+        rc = r.risk_curve
+        lines += ["", "Risk curve (subset simulation, mixed over branches): P(overrun) for a runway of"]
+        for target in (1e-3, 1e-5, 1e-7, 1e-9):
+            i = int(np.argmin(np.abs(np.log(np.maximum(rc["p_subset"], 1e-300)) - np.log(target))))
+            lines.append(f"  {rc['lda_m'][i]:8.0f} m: {rc['p_subset'][i]:.1e}")
+    if r.messages:
+        lines += [""] + [f"Note: {m}" for m in r.messages]
+    if written:
+        lines += ["", "Files written:"] + [f"  {w}" for w in written]
+    lines += ["", CAUTION]
+    return "\n".join(lines)
+
+
+def _show(key: str, value: object) -> str:
+    """A value in a readable unit: kt for speeds, m, s, kg, or as is."""
+    from landrisk.model import KEYS
+
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        return str(value)
+    unit = KEYS[key].unit if key in KEYS else ""
+    if unit == "m/s":
+        return f"{convert(float(value), 'm/s', 'kt'):.1f} kt"
+    return f"{value:.4g} {unit}".rstrip()
