@@ -368,9 +368,13 @@ def rare(
 def rare_full_record(r: RareAssessment) -> dict[str, Any]:
     """Everything about a rare-event assessment, JSON-ready: provenance, inputs, results."""
     s = r.scenario
+    rec = rare_record(r)
+    # The assess keys that have a meaning here; percentiles and moments need plain Monte Carlo.
+    assess_keys = {"samples": rec["model_calls"], "sampler": "standard normal space, seeded",
+                   "overruns": None, "percentiles_m": {}, "mean_m": None, "sd_m": None}
     return {"tool": "landrisk", "version": __version__, "caution": CAUTION, "scenario": s.name,
-            "source": s.source, "overrides": list(s.overrides), "sampler": "standard normal, seeded",
-            **rare_record(r), "inputs": dict(s.values),
+            "source": s.source, "overrides": list(s.overrides), **assess_keys, **rec,
+            "inputs": dict(s.values),
             "input_units": {k: spec.unit for k, spec in KEYS.items() if spec.kind == "quantity"}}
 
 

@@ -32,6 +32,7 @@ from landrisk.uq.rare import (
     exceedance_by_subsets,
     form,
     importance_sampling,
+    intervals_disagree,
     subset_simulation,
 )
 
@@ -161,8 +162,8 @@ def rare_assess(scenario: Scenario, problem: Problem, settings: RareSettings | N
         t = stats.norm.ppf(0.5 + s.confidence / 2)
         c_ci = (max(c_prob - t * math.sqrt(c_var), 0.0), c_prob + t * math.sqrt(c_var))
         cross = (c_prob, c_ci, sum(c.calls for _, c in checks))
-        lo, hi = ci if s.method != "form" else (prob, prob)
-        if hi < c_ci[0] or lo > c_ci[1]:
+        mixed = RareEstimate(s.method, prob, cov, ci, calls, converged)
+        if intervals_disagree(mixed, RareEstimate("subset", c_prob, 0.0, c_ci, cross[2], True)):
             messages.append(f"WARNING: {s.method} gives {prob:.3e} but subset simulation, which needs no "
                             f"design point, gives {c_prob:.3e} [{c_ci[0]:.2e}, {c_ci[1]:.2e}]: the intervals "
                             "do not overlap (several failure regions, or a design point that is not the most "

@@ -31,7 +31,15 @@ from scipy import special, stats
 
 from landrisk.uq.sampling import Seed, normalize_seed
 
-__all__ = ["DesignPoint", "RareEstimate", "form", "importance_sampling", "subset_simulation"]
+__all__ = [
+    "DesignPoint",
+    "RareEstimate",
+    "exceedance_by_subsets",
+    "form",
+    "importance_sampling",
+    "intervals_disagree",
+    "subset_simulation",
+]
 
 Array = NDArray[np.float64]
 LimitState = Callable[[Array], Array]  # g(u[n, d]) -> values[n]; failure where g <= 0
@@ -369,3 +377,8 @@ def exceedance_by_subsets(
         ys.append(y[keep])
         ps.append(p_level * above[keep])
     return np.concatenate(ys), np.concatenate(ps), res.calls
+
+
+def intervals_disagree(a: RareEstimate, b: RareEstimate) -> bool:
+    """True when the two estimates' confidence intervals do not overlap (FORM: its point value)."""
+    return a.ci[1] < b.ci[0] or b.ci[1] < a.ci[0]
