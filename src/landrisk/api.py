@@ -141,16 +141,16 @@ def solve_many(scenario: Scenario, values: Mapping[str, ArrayLike]) -> pd.DataFr
     return frame
 
 
+def _scenario_provenance(s: Scenario) -> dict[str, Any]:
+    """Tool, version, caution and where the scenario came from: the head of every record."""
+    return {"tool": "landrisk", "version": __version__, "caution": CAUTION, "scenario": s.name,
+            "source": s.source, "overrides": list(s.overrides)}
+
+
 def solve_record(landing: SingleLanding) -> dict[str, Any]:
     """A JSON-ready record of one landing: results, the resolved inputs and the run's provenance."""
-    s = landing.scenario
     return {
-        "tool": "landrisk",
-        "version": __version__,
-        "caution": CAUTION,
-        "scenario": s.name,
-        "source": s.source,
-        "overrides": list(s.overrides),
+        **_scenario_provenance(landing.scenario),
         "air_distance_m": landing.air_distance_m,
         "approach_m": landing.approach_m,
         "flare_m": landing.flare_m,
@@ -167,8 +167,8 @@ def solve_record(landing: SingleLanding) -> dict[str, Any]:
         "touchdown_ground_speed_kt": _kt(landing.touchdown_ground_speed),
         "brake_speed_kt": _kt(landing.brake_speed),
         "time_to_stop_s": landing.time_to_stop_s,
-        "inputs": dict(s.values),
-        "input_units": {k: spec.unit for k, spec in KEYS.items() if spec.kind == "quantity"},
+        "inputs": dict(landing.scenario.values),
+        "input_units": _input_units(),
         "derived": dict(landing.derived),
     }
 
@@ -213,19 +213,13 @@ def assess(
                    record=uncertain.record())
 
 
+def _input_units() -> dict[str, str]:
+    return {k: spec.unit for k, spec in KEYS.items() if spec.kind == "quantity"}
+
+
 def _provenance(a: Assessment) -> dict[str, Any]:
-    s = a.scenario
-    return {
-        "tool": "landrisk",
-        "version": __version__,
-        "caution": CAUTION,
-        "scenario": s.name,
-        "source": s.source,
-        "overrides": list(s.overrides),
-        "seed": a.settings.seed,
-        "sampler": a.settings.sampler,
-        "samples": a.settings.samples,
-    }
+    return {**_scenario_provenance(a.scenario), "seed": a.settings.seed, "sampler": a.settings.sampler,
+            "samples": a.settings.samples}
 
 
 def assessment_record(a: Assessment) -> dict[str, Any]:
@@ -234,7 +228,7 @@ def assessment_record(a: Assessment) -> dict[str, Any]:
         **_provenance(a),
         **summary_record(a),
         "inputs": dict(a.scenario.values),
-        "input_units": {k: spec.unit for k, spec in KEYS.items() if spec.kind == "quantity"},
+        "input_units": _input_units(),
         "uncertain": dict(a.record),
         "scenario_text": a.scenario.text,
     }
@@ -306,9 +300,7 @@ def rank(
 
 
 def _rank_provenance(r: Ranking) -> dict[str, Any]:
-    s = r.scenario
-    return {"tool": "landrisk", "version": __version__, "caution": CAUTION, "scenario": s.name,
-            "source": s.source, "overrides": list(s.overrides), "seed": r.settings.seed, "method": r.method}
+    return {**_scenario_provenance(r.scenario), "seed": r.settings.seed, "method": r.method}
 
 
 def rank_record(r: Ranking) -> dict[str, Any]:
@@ -372,10 +364,8 @@ def rare_full_record(r: RareAssessment) -> dict[str, Any]:
     # The assess keys that have a meaning here; percentiles and moments need plain Monte Carlo.
     assess_keys = {"samples": rec["model_calls"], "sampler": "standard normal space, seeded",
                    "overruns": None, "percentiles_m": {}, "mean_m": None, "sd_m": None}
-    return {"tool": "landrisk", "version": __version__, "caution": CAUTION, "scenario": s.name,
-            "source": s.source, "overrides": list(s.overrides), **assess_keys, **rec,
-            "inputs": dict(s.values),
-            "input_units": {k: spec.unit for k, spec in KEYS.items() if spec.kind == "quantity"}}
+    return {**_scenario_provenance(s), **assess_keys, **rec, "inputs": dict(s.values),
+            "input_units": _input_units()}
 
 
 def write_rare(r: RareAssessment, folder: str | Path, *, force: bool = False) -> list[Path]:

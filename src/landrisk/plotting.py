@@ -42,14 +42,14 @@ def _pyplot() -> Any:
     return plt
 
 
-def _provenance(a: Assessment) -> str:
-    s = a.settings
-    return (f"landrisk {__version__} | scenario {a.scenario.name} ({a.scenario.source}) | "
-            f"{s.samples:,} samples, {s.sampler}, seed {s.seed}")
+def _footer(fig: Figure, scenario: Any, run: str) -> None:
+    """Provenance (tool version, scenario, how the run was made) and the caution, under the axes."""
+    fig.text(0.01, 0.01, f"landrisk {__version__} | scenario {scenario.name} ({scenario.source}) | {run}\n"
+             + CAUTION, fontsize=6, va="bottom", ha="left", wrap=True)
 
 
-def _footer(fig: Figure, a: Assessment) -> None:
-    fig.text(0.01, 0.01, _provenance(a) + "\n" + CAUTION, fontsize=6, va="bottom", ha="left", wrap=True)
+def _assess_run(a: Assessment) -> str:
+    return f"{a.settings.samples:,} samples, {a.settings.sampler}, seed {a.settings.seed}"
 
 
 def exceedance_figure(a: Assessment) -> Figure:
@@ -76,7 +76,7 @@ def exceedance_figure(a: Assessment) -> Figure:
     ax.grid(True, which="both", alpha=0.3)
     ax.legend(fontsize=7, loc="lower left")
     fig.subplots_adjust(bottom=0.2)
-    _footer(fig, a)
+    _footer(fig, a.scenario, _assess_run(a))
     return fig
 
 
@@ -92,7 +92,7 @@ def histogram_figure(a: Assessment) -> Figure:
     ax.set_title(f"Distribution of the landing distance: {a.scenario.name}", fontsize=9)
     ax.legend(fontsize=8)
     fig.subplots_adjust(bottom=0.2)
-    _footer(fig, a)
+    _footer(fig, a.scenario, _assess_run(a))
     return fig
 
 
@@ -120,7 +120,7 @@ def convergence_figure(a: Assessment) -> Figure:
         ax.grid(True, which="both", alpha=0.3)
     fig.suptitle(f"Convergence of the Monte Carlo estimates: {a.scenario.name}", fontsize=10)
     fig.subplots_adjust(bottom=0.25, wspace=0.3)
-    _footer(fig, a)
+    _footer(fig, a.scenario, _assess_run(a))
     return fig
 
 
@@ -160,8 +160,7 @@ def indices_figure(r: Ranking) -> Figure:
     ax.legend(fontsize=8)
     ax.grid(True, axis="x", alpha=0.3)
     fig.subplots_adjust(left=0.32, bottom=0.22)
-    fig.text(0.01, 0.01, f"landrisk {__version__} | scenario {r.scenario.name} ({r.scenario.source}) | seed "
-             f"{r.settings.seed}\n" + CAUTION, fontsize=6, va="bottom", ha="left", wrap=True)
+    _footer(fig, r.scenario, f"seed {r.settings.seed}")
     return fig
 
 
@@ -187,8 +186,7 @@ def tornado_figure(r: Ranking) -> Figure:
     axes[0].invert_yaxis()
     fig.suptitle(f"One-at-a-time swings (low to high value, others nominal): {r.scenario.name}", fontsize=9)
     fig.subplots_adjust(left=0.27, bottom=0.22, wspace=0.08)
-    fig.text(0.01, 0.01, f"landrisk {__version__} | scenario {r.scenario.name} ({r.scenario.source}); red: "
-             "longer landing / smaller margin\n" + CAUTION, fontsize=6, va="bottom", ha="left", wrap=True)
+    _footer(fig, r.scenario, f"seed {r.settings.seed}; red: longer landing / smaller margin")
     return fig
 
 
@@ -220,8 +218,7 @@ def surrogate_exceedance_figure(r: Ranking) -> Figure:
     ax.grid(True, which="both", alpha=0.3)
     ax.legend(fontsize=8, loc="lower left")
     fig.subplots_adjust(bottom=0.2)
-    fig.text(0.01, 0.01, f"landrisk {__version__} | scenario {r.scenario.name} ({r.scenario.source}) | seed "
-             f"{r.settings.seed}\n" + CAUTION, fontsize=6, va="bottom", ha="left", wrap=True)
+    _footer(fig, r.scenario, f"seed {r.settings.seed}")
     return fig
 
 
@@ -251,6 +248,5 @@ def risk_curve_figure(r: RareAssessment) -> Figure:
     ax.grid(True, which="both", alpha=0.3)
     ax.legend(fontsize=7, loc="lower left")
     fig.subplots_adjust(bottom=0.2)
-    fig.text(0.01, 0.01, f"landrisk {__version__} | scenario {r.scenario.name} ({r.scenario.source}) | seed "
-             f"{r.settings.seed}\n" + CAUTION, fontsize=6, va="bottom", ha="left", wrap=True)
+    _footer(fig, r.scenario, f"seed {r.settings.seed}")
     return fig

@@ -20,6 +20,16 @@ def _kt(label: str, speed: float) -> str:
     return f"  {label:<28}{convert(speed, 'm/s', 'kt'):10.1f} kt {speed:9.1f} m/s"
 
 
+def _closing(lines: list[str], notes: list[str], written: list[str] | None) -> str:
+    """Notes, the files written and the caution after a report's body; the whole report as text."""
+    if notes:
+        lines += [""] + [f"Note: {n}" for n in notes]
+    if written:
+        lines += ["", "Files written:"] + [f"  {w}" for w in written]
+    lines += ["", CAUTION]
+    return "\n".join(lines)
+
+
 def render_solve(landing: SingleLanding) -> str:
     """The deterministic landing as a readable table: phases in m and ft, speeds in kt, the margin."""
     s = landing.scenario
@@ -144,10 +154,7 @@ def render_assess(a: Assessment, written: list[str] | None = None) -> str:
                      f"{a.flags['cannot_stop']} that cannot stop (counted as overruns).")
     if st.sampler != "random":
         lines.append(f"Intervals assume independent samples; for {st.sampler} points they are conservative.")
-    if written:
-        lines += ["", "Files written:"] + [f"  {w}" for w in written]
-    lines += ["", CAUTION]
-    return "\n".join(lines)
+    return _closing(lines, [], written)
 
 
 _TAIL_FAILED = "FAILED - the surrogate's P99 and P(overrun) are not reliable"
@@ -208,12 +215,7 @@ def render_rank(r: Ranking, written: list[str] | None = None) -> str:
         for k in order:
             lines.append(f"  {r.risk.names[k]:<34}{r.risk.first[k]:12.3f}{r.risk.total[k]:9.3f}  "
                          f"[{r.risk.total_ci[k, 0]:.3f}, {r.risk.total_ci[k, 1]:.3f}]")
-    if r.warnings:
-        lines += [""] + [f"Note: {w}" for w in r.warnings]
-    if written:
-        lines += ["", "Files written:"] + [f"  {w}" for w in written]
-    lines += ["", CAUTION]
-    return "\n".join(lines)
+    return _closing(lines, r.warnings, written)
 
 
 _METHOD_NAMES = {"form": "FORM (first-order reliability method)", "importance":
@@ -266,12 +268,7 @@ def render_rare(r: RareAssessment, written: list[str] | None = None) -> str:
         for target in (1e-3, 1e-5, 1e-7, 1e-9):
             i = int(np.argmin(np.abs(np.log(np.maximum(rc["p_subset"], 1e-300)) - np.log(target))))
             lines.append(f"  {rc['lda_m'][i]:8.0f} m: {rc['p_subset'][i]:.1e}")
-    if r.messages:
-        lines += [""] + [f"Note: {m}" for m in r.messages]
-    if written:
-        lines += ["", "Files written:"] + [f"  {w}" for w in written]
-    lines += ["", CAUTION]
-    return "\n".join(lines)
+    return _closing(lines, r.messages, written)
 
 
 def _show(key: str, value: object) -> str:

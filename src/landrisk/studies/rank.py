@@ -18,7 +18,6 @@ indices of the overrun indicator 1{total > LDA} by Monte Carlo on the real solve
 
 from __future__ import annotations
 
-import itertools
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
@@ -27,8 +26,11 @@ import numpy as np
 from numpy.typing import NDArray
 
 from landrisk.errors import LandriskError
-from landrisk.model import KEYS, Scenario, solve_landings
+from landrisk.model import Scenario, solve_landings
 from landrisk.studies.assess import AssessSettings, assess, landing_model
+from landrisk.studies.branches import cast_value as _cast
+from landrisk.studies.branches import discrete_branches as _branches
+from landrisk.studies.branches import split_discrete as _split
 from landrisk.uq import (
     ChaosSpace,
     EventProbability,
@@ -109,41 +111,6 @@ class Ranking:
     def reliable(self) -> bool:
         """False when the surrogate failed its hold-out or tail check (PCE only)."""
         return self.method == "mc" or bool(self.chaos.get("reliable"))
-
-
-def _cast(key: str, v: float) -> Any:
-    kind = KEYS[key].kind
-    return bool(v > 0.5) if kind == "bool" else round(v) if kind == "int" else float(v)
-
-
-def _branches(problem: Problem, disc: list[int]) -> list[tuple[dict[str, Any], float]]:
-    """Every combination of the discrete inputs' values with its probability (independent inputs)."""
-    choices = []
-    for i in disc:
-        m = problem.marginals[i]
-        probs = np.diff(np.concatenate([[0.0], m._cum]))
-        choices.append([(problem.names[i], float(v), float(p)) for v, p in zip(m._values, probs, strict=True)
-                        if p > 0])
-    out = []
-    for combo in itertools.product(*choices) if choices else [()]:
-        values = {k: _cast(k, v) for k, v, _ in combo}
-        out.append((values, float(np.prod([p for _, _, p in combo])) if combo else 1.0))
-    return out
-
-
-def _split(problem: Problem) -> tuple[list[int], list[int], Problem]:
-    disc = [i for i, m in enumerate(problem.marginals) if m.discrete]
-    cont = [i for i, m in enumerate(problem.marginals) if not m.discrete]
-    if problem.spearman is not None and disc:
-        r = problem.spearman
-        if np.any(r[np.ix_(disc, cont)] != 0) or np.any(r[np.ix_(disc, disc)] - np.eye(len(disc)) != 0):
-            raise LandriskError("a discrete input cannot take part in a rank correlation for `rank`")
-    sub = None if problem.spearman is None else problem.spearman[np.ix_(cont, cont)]
-    if sub is not None and np.allclose(sub, np.eye(len(cont))):
-        sub = None
-    cont_problem = Problem(tuple(problem.names[i] for i in cont), tuple(problem.marginals[i] for i in cont),
-                           sub)
-    return disc, cont, cont_problem
 
 
 def _model(scenario: Scenario, keys: tuple[str, ...]) -> Callable[[NDArray], NDArray]:

@@ -24,7 +24,8 @@ from scipy import special, stats
 from landrisk.errors import LandriskError
 from landrisk.model import Scenario, solve_landings
 from landrisk.studies.assess import AssessSettings, assess, landing_model
-from landrisk.studies.rank import _branches, _split
+from landrisk.studies.branches import discrete_branches as _branches
+from landrisk.studies.branches import split_discrete as _split
 from landrisk.uq import Problem, normalize_seed
 from landrisk.uq.rare import (
     DesignPoint,
