@@ -115,6 +115,7 @@ def test_demo_indices_agree_with_salib(demo_ranking) -> None:
 
 def test_indices_are_consistent(demo_ranking) -> None:
     r, _, _ = demo_ranking
+    assert sum(r.form_importance.values()) == pytest.approx(1.0, abs=1e-6)  # alpha is a unit vector
     for i in r.inputs:
         assert 0 <= i.first <= i.total + 1e-12 <= 1 + 1e-12
     assert sum(i.first for i in r.inputs) <= 1 + 1e-9

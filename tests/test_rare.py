@@ -120,7 +120,11 @@ def test_method_that_does_not_converge_says_so(short_runway) -> None:
                                                                 max_calls=1500, risk_curve=False,
                                                                 cross_check=False))
     assert not r.converged
-    assert "THE METHOD DID NOT CONVERGE" in render_rare(r)
+    text = render_rare(r)
+    assert "NO ESTIMATE - THE METHOD DID NOT CONVERGE" in text and "P(overrun) = " not in text
+    from landrisk.studies import rare_record
+
+    assert rare_record(r)["p_overrun"] is None
 
 
 def test_cli_assess_rare_json_and_files(tmp_path) -> None:

@@ -212,9 +212,14 @@ def render_rank(r: Ranking, written: list[str] | None = None) -> str:
         lines += ["", "Influence on the overrun itself: Sobol indices of the overrun indicator, Monte Carlo "
                   f"on the solver ({r.risk_events} overruns in {2 * r.settings.risk_samples:,} samples)"]
         order = np.argsort(-r.risk.total)
+        if r.form_importance:
+            lines.append(f"  {'input':<34}{'first order':>12}{'total':>9}  {'95 % interval':<16}"
+                         f"FORM alpha^2 (beta {r.form_beta:.2f})")
         for k in order:
+            a2 = r.form_importance.get(r.risk.names[k])
             lines.append(f"  {r.risk.names[k]:<34}{r.risk.first[k]:12.3f}{r.risk.total[k]:9.3f}  "
-                         f"[{r.risk.total_ci[k, 0]:.3f}, {r.risk.total_ci[k, 1]:.3f}]")
+                         f"{f'[{r.risk.total_ci[k, 0]:.3f}, {r.risk.total_ci[k, 1]:.3f}]':<16}"
+                         + (f"{a2:.3f}" if a2 is not None else "-"))
     return _closing(lines, r.warnings, written)
 
 
@@ -235,8 +240,10 @@ def render_rare(r: RareAssessment, written: list[str] | None = None) -> str:
         f"Runway: LDA {lda:.0f} m ({convert(lda, 'm', 'ft'):.0f} ft)",
     ]
     if not r.converged:
-        lines.append("  THE METHOD DID NOT CONVERGE: its figure below is not an estimate to rely on.")
-    if r.method == "form":
+        lines.append(f"  P(overrun): NO ESTIMATE - THE METHOD DID NOT CONVERGE ({'; '.join(r.messages)}). "
+                     f"Its last, unreliable value was {r.probability:.1e}; use --method subset or plain "
+                     "Monte Carlo.")
+    elif r.method == "form":
         lines.append(f"  P(overrun) ~ Phi(-beta) = {r.probability:.3e}, beta = {r.beta:.3f} (FORM has no "
                      "sampling interval; it is exact for a linear limit state only)")
     else:

@@ -106,6 +106,8 @@ class Ranking:
     surrogate: dict[str, Any] = field(default_factory=dict)
     mc_check: dict[str, Any] = field(default_factory=dict)
     warnings: list[str] = field(default_factory=list)
+    form_importance: dict[str, float] = field(default_factory=dict)  # alpha^2 at the design point
+    form_beta: float | None = None
 
     @property
     def reliable(self) -> bool:
@@ -135,6 +137,30 @@ def _swings(scenario: Scenario, problem: Problem) -> list[tuple[float, float, fl
     return out
 
 
+def _form_importance(
+    scenario: Scenario, problem: Problem, rng: np.random.Generator
+) -> tuple[dict[str, float], float | None, int]:
+    """FORM importance factors alpha^2 of the continuous inputs at the design point of the branch that
+    contributes most to P(overrun) (Hasofer & Lind 1974; see landrisk.uq.rare)."""
+    from landrisk.studies.rare import _limit_state
+    from landrisk.uq.rare import form
+
+    disc, _, cont = _split(problem)
+    if cont.dimension == 0:
+        return {}, None, 0
+    best, calls = None, 0
+    for values, p in _branches(problem, disc):
+        g, _ = _limit_state(scenario, cont, values)
+        dps, c = form(g, cont.dimension, seed=rng)
+        calls += c
+        if dps[0].converged and (best is None or p * dps[0].probability > best[0]):
+            best = (p * dps[0].probability, dps[0])
+    if best is None:
+        return {}, None, calls
+    dp = best[1]
+    return {n: float(a) for n, a in zip(cont.names, dp.importance, strict=True)}, dp.beta, calls
+
+
 def rank(
     scenario: Scenario, problem: Problem, settings: RankSettings | None = None
 ) -> Ranking:
@@ -157,6 +183,8 @@ def rank(
         warnings.append(f"only {risk_events} overruns among the {2 * s.risk_samples:,} samples behind the "
                         "overrun-indicator indices: they are rough (see their intervals)")
     breakdown = {"one-at-a-time swings": 2 * problem.dimension, "overrun-indicator indices": risk.calls}
+    form_importance, form_beta, form_calls = _form_importance(scenario, problem, rng)
+    breakdown["FORM importance factors"] = form_calls
 
     if s.method == "mc":
         d = problem.dimension
@@ -168,7 +196,8 @@ def rank(
                   for i, name in enumerate(problem.names)]
         breakdown["Sobol design"] = mc.calls
         return Ranking(scenario, problem, s, "mc", mc.calls, breakdown,
-                       sorted(inputs, key=lambda r: -r.total), [], {}, risk, risk_events, warnings=warnings)
+                       sorted(inputs, key=lambda r: -r.total), [], {}, risk, risk_events, warnings=warnings,
+                       form_importance=form_importance, form_beta=form_beta)
 
     disc, cont, cont_problem = _split(problem)
     if not cont:
@@ -290,7 +319,7 @@ def rank(
     second = sorted(((a, b, v) for (a, b), v in total_si.second.items()), key=lambda t: -t[2])[:3]
     return Ranking(scenario, problem, s, "pce", per_branch * len(branches), breakdown,
                    sorted(inputs, key=lambda r: -r.total), second, phase_idx, risk, risk_events, chaos,
-                   surrogate, mc_check, warnings)
+                   surrogate, mc_check, warnings, form_importance, form_beta)
 
 
 def ranking_record(r: Ranking) -> dict[str, Any]:
@@ -318,6 +347,9 @@ def ranking_record(r: Ranking) -> dict[str, Any]:
         "phase_indices": {ph: {n: {"first_order": f, "total": t} for n, (f, t) in d.items()}
                           for ph, d in r.phase_indices.items()},
     }
+    if r.form_importance:
+        out["form_importance_alpha2"] = r.form_importance
+        out["form_beta"] = r.form_beta
     if r.risk is not None:
         out["overrun_indicator_indices"] = {
             "events": r.risk_events, "samples": 2 * r.settings.risk_samples, "calls": r.risk.calls,

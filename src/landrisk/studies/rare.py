@@ -225,8 +225,10 @@ def rare_record(r: RareAssessment) -> dict[str, Any]:
     """JSON-ready figures of a rare-event assessment (no provenance; the caller adds it)."""
     out = {
         "method": r.method,
-        "p_overrun": r.probability,
-        "p_overrun_ci95": list(r.ci),
+        # A method that did not converge gives no estimate; its last value is kept apart.
+        "p_overrun": r.probability if r.converged else None,
+        "p_overrun_ci95": list(r.ci) if r.converged else None,
+        "last_value_not_converged": None if r.converged else r.probability,
         "cov": r.cov,
         "model_calls": r.calls,
         "converged": r.converged,
