@@ -40,6 +40,9 @@ from landrisk.uq.rare import (
 __all__ = ["RARE_METHODS", "RareAssessment", "RareSettings", "rare_assess"]
 
 RARE_METHODS = ("form", "importance", "subset")
+#: With subset simulation, a discrete branch whose pilot contribution is below this share of the total
+#: keeps its pilot estimate instead of a full run.
+PILOT_SHARE = 0.01
 
 
 @dataclass(frozen=True)
@@ -113,12 +116,30 @@ def rare_assess(scenario: Scenario, problem: Problem, settings: RareSettings | N
     results: list[BranchResult] = []
     checks: list[tuple[float, RareEstimate]] = []
     messages: list[str] = []
-    for values, p in _branches(problem, disc):
+    branches = _branches(problem, disc)
+    pilots: dict[int, RareEstimate] = {}
+    if s.method == "subset" and len(branches) > 1:
+        # A short pilot run per branch; the full run goes only where the contribution p_b P_b matters.
+        for k, (values, _) in enumerate(branches):
+            g, _ = _limit_state(scenario, cont, values)
+            pilots[k] = subset_simulation(g, d, n=max(200, s.subset_samples // 4), seed=rng, replicates=1,
+                                          conf=s.confidence)
+        total = sum(p * pilots[k].probability for k, (_, p) in enumerate(branches) if pilots[k].converged)
+    for k, (values, p) in enumerate(branches):
         g, _ = _limit_state(scenario, cont, values)
         label = ", ".join(f"{k} = {v}" for k, v in values.items()) or "all landings"
         if s.method == "subset":
-            est = subset_simulation(g, d, n=s.subset_samples, seed=rng, replicates=s.subset_replicates,
-                                    conf=s.confidence)
+            pilot = pilots.get(k)
+            if pilot is not None and pilot.converged and p * pilot.probability < PILOT_SHARE * total:
+                est = pilot
+                messages.append(f"{label}: contributes under {100 * PILOT_SHARE:g} % of P(overrun); its "
+                                f"pilot estimate ({pilot.calls:,} calls) is kept")
+            else:
+                est = subset_simulation(g, d, n=s.subset_samples, seed=rng, replicates=s.subset_replicates,
+                                        conf=s.confidence)
+                if pilot is not None:
+                    est = RareEstimate(est.method, est.probability, est.cov, est.ci, est.calls + pilot.calls,
+                                       est.converged, est.message, curve=est.curve)
         else:
             dps, calls = form(g, d, starts=s.starts, seed=rng)
             if len([q for q in dps if q.converged]) > 1:
