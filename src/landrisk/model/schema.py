@@ -13,7 +13,7 @@ import math
 from dataclasses import dataclass
 from typing import Any, Literal
 
-__all__ = ["KEYS", "Key", "keys_markdown", "section_keys"]
+__all__ = ["KEYS", "Key", "keys_markdown"]
 
 Kind = Literal["quantity", "int", "bool", "str"]
 
@@ -165,12 +165,6 @@ _KEYS: list[Key] = [
 
 #: Every key of the scenario file, by dotted name, in file order.
 KEYS: dict[str, Key] = {k.name: k for k in _KEYS}
-
-
-def section_keys(section: str) -> list[Key]:
-    """The keys whose dotted name starts with ``section + "."``, in file order."""
-    prefix = section + "."
-    return [k for k in _KEYS if k.name.startswith(prefix)]
 
 
 def keys_markdown() -> str:

@@ -142,7 +142,7 @@ def _form_importance(
 ) -> tuple[dict[str, float], float | None, int]:
     """FORM importance factors alpha^2 of the continuous inputs at the design point of the branch that
     contributes most to P(overrun) (Hasofer & Lind 1974; see landrisk.uq.rare)."""
-    from landrisk.studies.rare import _limit_state
+    from landrisk.studies.rare import limit_state
     from landrisk.uq.rare import form
 
     disc, _, cont = _split(problem)
@@ -150,7 +150,7 @@ def _form_importance(
         return {}, None, 0
     best, calls = None, 0
     for values, p in _branches(problem, disc):
-        g, _ = _limit_state(scenario, cont, values)
+        g, _ = limit_state(scenario, cont, values)
         dps, c = form(g, cont.dimension, seed=rng)
         calls += c
         if dps[0].converged and (best is None or p * dps[0].probability > best[0]):

@@ -37,7 +37,7 @@ from landrisk.uq.rare import (
     subset_simulation,
 )
 
-__all__ = ["RARE_METHODS", "RareAssessment", "RareSettings", "rare_assess"]
+__all__ = ["RARE_METHODS", "RareAssessment", "RareSettings", "limit_state", "rare_assess"]
 
 RARE_METHODS = ("form", "importance", "subset")
 #: With subset simulation, a discrete branch whose pilot contribution is below this share of the total
@@ -86,12 +86,13 @@ class RareAssessment:
     importance: dict[str, float]  # input -> alpha^2
     beta: float | None
     messages: list[str] = field(default_factory=list)
-    cross_check: RareEstimate | None = None
     cross_check_probability: tuple[float, tuple[float, float], int] | None = None
     risk_curve: dict[str, Any] = field(default_factory=dict)
 
 
-def _limit_state(scenario: Scenario, problem: Problem, values: dict[str, Any]):
+def limit_state(scenario: Scenario, problem: Problem, values: dict[str, Any]):
+    """g(u) = margin [m] in the standard normal space of ``problem`` (the continuous inputs), with the
+    discrete inputs fixed at ``values``; and the underlying landing model."""
     model = landing_model(scenario.with_values(**values) if values else scenario, problem.names)
 
     def g(u: NDArray[np.float64]) -> NDArray[np.float64]:
@@ -121,12 +122,12 @@ def rare_assess(scenario: Scenario, problem: Problem, settings: RareSettings | N
     if s.method == "subset" and len(branches) > 1:
         # A short pilot run per branch; the full run goes only where the contribution p_b P_b matters.
         for k, (values, _) in enumerate(branches):
-            g, _ = _limit_state(scenario, cont, values)
+            g, _ = limit_state(scenario, cont, values)
             pilots[k] = subset_simulation(g, d, n=max(200, s.subset_samples // 4), seed=rng, replicates=1,
                                           conf=s.confidence)
         total = sum(p * pilots[k].probability for k, (_, p) in enumerate(branches) if pilots[k].converged)
     for k, (values, p) in enumerate(branches):
-        g, _ = _limit_state(scenario, cont, values)
+        g, _ = limit_state(scenario, cont, values)
         label = ", ".join(f"{k} = {v}" for k, v in values.items()) or "all landings"
         if s.method == "subset":
             pilot = pilots.get(k)
@@ -139,7 +140,7 @@ def rare_assess(scenario: Scenario, problem: Problem, settings: RareSettings | N
                                         conf=s.confidence)
                 if pilot is not None:
                     est = RareEstimate(est.method, est.probability, est.cov, est.ci, est.calls + pilot.calls,
-                                       est.converged, est.message, curve=est.curve)
+                                       est.converged, est.message)
         else:
             dps, calls = form(g, d, starts=s.starts, seed=rng)
             if len([q for q in dps if q.converged]) > 1:
@@ -192,7 +193,7 @@ def rare_assess(scenario: Scenario, problem: Problem, settings: RareSettings | N
                             "probable); trust the subset estimate or use --method subset")
     curve = _risk_curve(scenario, problem, cont, disc, s, rng) if s.risk_curve else {}
     return RareAssessment(scenario, problem, s, s.method, prob, cov, ci, calls, converged, results, design,
-                          importance, beta, messages, None, cross, curve)
+                          importance, beta, messages, cross, curve)
 
 
 def _risk_curve(scenario: Scenario, problem: Problem, cont: Problem, disc: list[int], s: RareSettings,
@@ -202,7 +203,7 @@ def _risk_curve(scenario: Scenario, problem: Problem, cont: Problem, disc: list[
     curves, form_pts, calls = [], [], 0
     branches = _branches(problem, disc)
     for values, p in branches:
-        _, model = _limit_state(scenario, cont, values)
+        _, model = limit_state(scenario, cont, values)
 
         def total(u: NDArray, model=model) -> NDArray:
             return model(cont.transform(np.clip(special.ndtr(u), 1e-300, 1 - 2.0**-53)))["total_m"]
@@ -226,7 +227,7 @@ def _risk_curve(scenario: Scenario, problem: Problem, cont: Problem, disc: list[
         length = float(lda[i])
         pf = 0.0
         for values, p in branches:
-            g, _ = _limit_state(scenario.with_values(**{"runway.lda": length}), cont, values)
+            g, _ = limit_state(scenario.with_values(**{"runway.lda": length}), cont, values)
             dps, c = form(g, cont.dimension, starts=1, seed=rng)
             form_calls += c
             pf += p * dps[0].probability

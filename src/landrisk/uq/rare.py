@@ -91,7 +91,6 @@ class RareEstimate:
     message: str = ""
     design_points: list[DesignPoint] = field(default_factory=list)
     effective_samples: float | None = None
-    curve: tuple[Array, Array] | None = None  # thresholds b and P(g <= b), subset simulation only
 
 
 def _grad(g: _Counter, u: Array, gu: float, h: float) -> Array:
@@ -258,7 +257,6 @@ def _subset_run(
     u = rng.normal(size=(n, d))
     y = gc(u)
     prob, delta2 = 1.0, 0.0
-    thresholds, probs = [], []
     gamma = 0.0
     sigma = spread
     for level in range(max_levels):
@@ -275,13 +273,9 @@ def _subset_run(
                                     f"the failure region was not reached in {max_levels} levels")
             delta2 += (1 - pf) / (pf * n) * (1 + (gamma if level else 0.0)) if pf > 0 else math.inf
             prob *= pf
-            thresholds.append(0.0)
-            probs.append(prob)
             break
         prob *= p0
         delta2 += (1 - p0) / (p0 * n) * (1 + (gamma if level else 0.0))
-        thresholds.append(b)
-        probs.append(prob)
         # Conditional sampling (Papaioannou et al. 2015): chains from the n p0 samples below b, each of
         # `steps` states; a candidate rho u + sqrt(1 - rho^2) xi keeps the standard normal invariant and is
         # accepted when it stays below b. The spread sqrt(1 - rho^2) adapts towards acceptance 0.44.
@@ -311,8 +305,7 @@ def _subset_run(
     s = math.sqrt(math.log1p(cov**2)) if math.isfinite(cov) else math.inf
     ci = (prob * math.exp(-z * s), prob * math.exp(z * s)) if math.isfinite(s) and prob > 0 else (0.0, 1.0)
     return RareEstimate("subset", prob, cov, ci, gc.calls, prob > 0 and math.isfinite(cov),
-                        "" if prob > 0 else "no failure sample at the last level",
-                        curve=(np.array(thresholds), np.array(probs)))
+                        "" if prob > 0 else "no failure sample at the last level")
 
 
 def subset_simulation(
@@ -350,8 +343,7 @@ def subset_simulation(
     cov = max(cov_au_beck, cov_rep)
     t = stats.t.ppf(0.5 + conf / 2, max(replicates - 1, 1))
     ci = (max(mean * (1 - t * cov), 0.0), mean * (1 + t * cov))
-    curve = runs[0].curve
-    return RareEstimate("subset", mean, cov, ci, calls, True, "", curve=curve)
+    return RareEstimate("subset", mean, cov, ci, calls, True, "")
 
 
 def exceedance_by_subsets(
