@@ -253,6 +253,15 @@ def samples_table(a: Assessment) -> pd.DataFrame:
     return pd.DataFrame(dict(samples_frame_columns(a)))
 
 
+def _figure_files(figures: Mapping[str, Callable[[Any], Any]], result: Any,
+                  meta: dict[str, Any]) -> dict[str, bytes]:
+    """``stem.png`` and ``stem.svg`` for each figure function, the run's record in their metadata."""
+    from landrisk.plotting import figure_bytes
+
+    return {f"{stem}.{fmt}": figure_bytes(make(result), fmt, meta)
+            for stem, make in figures.items() for fmt in ("png", "svg")}
+
+
 def write_assessment(
     a: Assessment, folder: str | Path, *, force: bool = False, figures: bool = True
 ) -> list[Path]:
@@ -267,12 +276,9 @@ def write_assessment(
         "percentiles.csv": header + percentile_table(a).to_csv(index=False),
     }
     if figures:
-        from landrisk.plotting import FIGURES, figure_bytes
+        from landrisk.plotting import FIGURES
 
-        meta = {**_provenance(a), "inputs": dict(a.scenario.values)}
-        for stem, make in FIGURES.items():
-            for fmt in ("png", "svg"):
-                files[f"{stem}.{fmt}"] = figure_bytes(make(a), fmt, meta)
+        files.update(_figure_files(FIGURES, a, {**_provenance(a), "inputs": dict(a.scenario.values)}))
     if a.inputs is not None:
         files["samples.csv"] = header + samples_table(a).to_csv(index=False)
     record["files"] = {"summary": "summary.json", **{
@@ -324,17 +330,13 @@ def rank_table(r: Ranking) -> pd.DataFrame:
 
 def write_ranking(r: Ranking, folder: str | Path, *, force: bool = False) -> list[Path]:
     """Write ranking.json, indices.csv and the index and tornado figures (PNG and SVG)."""
-    from landrisk.plotting import RANK_FIGURES, figure_bytes
+    from landrisk.plotting import RANK_FIGURES
 
     record = rank_record(r)
     header = comment_header({**_rank_provenance(r), "inputs": dict(r.scenario.values)})
     files: dict[str, str | bytes] = {"indices.csv": header + rank_table(r).to_csv(index=False)}
-    meta = {**_rank_provenance(r), "inputs": dict(r.scenario.values)}
-    for stem, make in RANK_FIGURES.items():
-        if stem == "surrogate-exceedance" and r.method != "pce":
-            continue
-        for fmt in ("png", "svg"):
-            files[f"{stem}.{fmt}"] = figure_bytes(make(r), fmt, meta)
+    figures = {k: f for k, f in RANK_FIGURES.items() if r.method == "pce" or k != "surrogate-exceedance"}
+    files.update(_figure_files(figures, r, {**_rank_provenance(r), "inputs": dict(r.scenario.values)}))
     record["files"] = sorted(["ranking.json", *files])
     files = {"ranking.json": json.dumps(record, indent=2, default=str) + "\n", **files}
     return write_files(Path(folder), files, force=force)
@@ -377,15 +379,14 @@ def write_rare(r: RareAssessment, folder: str | Path, *, force: bool = False) ->
                                           "method", "seed")}
     files: dict[str, str | bytes] = {}
     if r.risk_curve:
-        from landrisk.plotting import figure_bytes, risk_curve_figure
+        from landrisk.plotting import risk_curve_figure
 
         rc = r.risk_curve
         table = pd.DataFrame({"lda_m": rc["lda_m"], "p_overrun_subset": rc["p_subset"],
                               "p_overrun_mc": rc["p_mc"]})
         files["risk-curve.csv"] = comment_header({**provenance, "inputs": dict(r.scenario.values)}) + \
             table.to_csv(index=False)
-        for fmt in ("png", "svg"):
-            files[f"risk-curve.{fmt}"] = figure_bytes(risk_curve_figure(r), fmt, provenance)
+        files.update(_figure_files({"risk-curve": risk_curve_figure}, r, provenance))
     record["files"] = sorted(["summary.json", *files])
     files = {"summary.json": json.dumps(record, indent=2, default=str) + "\n", **files}
     return write_files(Path(folder), files, force=force)
