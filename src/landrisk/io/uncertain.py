@@ -222,7 +222,7 @@ def _read_column(spec: Key, body: dict[str, Any], base_dir: Path | None, where: 
 def _check_support(spec: Key, m: Marginal, where: str) -> None:
     """The distribution must stay inside the key's allowed range (truncate it if it does not)."""
     if m.discrete:
-        bad = [v for v in m._values if not spec.contains(float(v))]
+        bad = [v for v in m.choices()[0] if not spec.contains(float(v))]
         if bad:
             raise ConfigError(f"value {bad[0]:g} is outside the allowed range of {spec.name}", key=where,
                               allowed=spec.allowed())

@@ -30,8 +30,8 @@ def discrete_branches(problem: Problem, disc: list[int]) -> list[tuple[dict[str,
     choices = []
     for i in disc:
         m = problem.marginals[i]
-        probs = np.diff(np.concatenate([[0.0], m._cum]))
-        choices.append([(problem.names[i], float(v), float(p)) for v, p in zip(m._values, probs, strict=True)
+        values, probs = m.choices()
+        choices.append([(problem.names[i], float(v), float(p)) for v, p in zip(values, probs, strict=True)
                         if p > 0])
     out = []
     for combo in itertools.product(*choices) if choices else [()]:

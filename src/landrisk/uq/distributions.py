@@ -77,6 +77,12 @@ class Marginal:
         """True for a discrete choice."""
         return self.family == "discrete"
 
+    def choices(self) -> tuple[Array, Array]:
+        """A discrete choice's values (ascending) and their probabilities."""
+        if not self.discrete:
+            raise ValueError(f"a {self.family} distribution has no discrete choices")
+        return self._values, np.diff(np.concatenate([[0.0], self._cum]))
+
     @property
     def truncated(self) -> bool:
         """True where a continuous family is cut to [lower, upper]."""
@@ -130,18 +136,14 @@ class Marginal:
 
     @property
     def _log_params(self) -> tuple[float, float]:
-        """(mean, sd) of ln X for the lognormal."""
-        p = self.params
-        if "median" in p:
-            return math.log(p["median"]), p["sigma_log"]
-        s = math.sqrt(math.log1p((p["sd"] / p["mean"]) ** 2))
-        return math.log(p["mean"]) - 0.5 * s * s, s
+        return _lognormal_log_params(self.params)
 
     def mean(self) -> float:
         """The distribution's mean: exact for untruncated families, by adaptive quadrature of the
         quantile function (``scipy.integrate.quad``) for truncated ones."""
         if self.family == "discrete":
-            return float(np.sum(self._values * np.diff(np.concatenate([[0.0], self._cum]))))
+            values, probs = self.choices()
+            return float(np.sum(values * probs))
         if self.family == "empirical":
             return float(np.mean(self._values))
         if not self.truncated:
@@ -168,6 +170,14 @@ def _fmt(v: Any) -> str:
     if isinstance(v, float):
         return f"{v:.6g}"
     return str(v)
+
+
+def _lognormal_log_params(p: Mapping[str, Any]) -> tuple[float, float]:
+    """(mean, sd) of ln X for a lognormal given by median and sigma_log, or by mean and sd."""
+    if "median" in p:
+        return math.log(p["median"]), p["sigma_log"]
+    s = math.sqrt(math.log1p((p["sd"] / p["mean"]) ** 2))
+    return math.log(p["mean"]) - 0.5 * s * s, s
 
 
 def _positive(params: Mapping[str, Any], *names: str) -> None:
@@ -220,8 +230,7 @@ def make_marginal(family: str, params: Mapping[str, Any]) -> Marginal:
             _positive(p, "mean", "sd")
         else:
             raise ValueError("lognormal needs either median and sigma_log, or mean and sd")
-        m = Marginal(family, p, max(lo, 0.0), hi)
-        mu, s = m._log_params
+        mu, s = _lognormal_log_params(p)
         return Marginal(family, p, max(lo, 0.0), hi, cp.LogNormal(mu, s))
     if family == "uniform":
         return Marginal(family, p, lo, hi, cp.Uniform(lo, hi))
