@@ -2,7 +2,7 @@
 
 Prints the time for 10^6 demo-like landings (the invented demo scenario with random perturbations of
 mass, wind, friction, reaction time, touchdown speed, temperature and reverser use), landings per second,
-the per-landing speed-up over ``landrisk.model.reference.reference_ground_roll`` (scipy solve_ivp,
+the per-landing speed-up over ``landrisk.testing.reference.reference_ground_roll`` (scipy solve_ivp,
 DOP853, rtol 1e-12) measured on a subset, and the largest relative difference from that reference.
 
 Run on one core:  python benchmarks/solver.py [--landings 1000000] [--reference 200]
@@ -23,7 +23,7 @@ import numpy as np  # noqa: E402
 from landrisk import __version__  # noqa: E402
 from landrisk.io import load_scenario  # noqa: E402
 from landrisk.model import solve_landings  # noqa: E402
-from landrisk.model.reference import reference_ground_roll  # noqa: E402
+from landrisk.testing.reference import reference_ground_roll  # noqa: E402
 
 
 def perturbed_demo(n: int, seed: int = 2026):

@@ -8,8 +8,8 @@ from conftest import FT, anderson_example_6_7, general_cases
 
 from landrisk.errors import SolveError
 from landrisk.model import solve_landings, solve_one
-from landrisk.model.reference import reference_ground_roll
 from landrisk.physics import aspect_ratio, ground_effect_factor, induced_drag_factor
+from landrisk.testing.reference import reference_ground_roll
 
 
 def _one(case, name):

@@ -4,6 +4,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
+from landrisk.testing.testmodels import StoppingDistance
 from landrisk.uq import (
     Problem,
     event_probability,
@@ -14,7 +15,6 @@ from landrisk.uq import (
     sample,
     uniform_chunks,
 )
-from landrisk.uq.testmodels import StoppingDistance
 
 SAMPLERS = ("random", "sobol", "halton", "lhs")
 

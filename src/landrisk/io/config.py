@@ -20,6 +20,7 @@ import numpy as np
 from landrisk.errors import ConfigError, LandriskWarning
 from landrisk.io.uncertain import UncertainSet, parse_uncertain
 from landrisk.model import KEYS, Key, Scenario
+from landrisk.model.schema import conflicting_forms, replaced_by
 from landrisk.physics import isa_density, isa_pressure_altitude, stall_speed
 from landrisk.units import UnitError, has_dimension, to_unit
 
@@ -38,14 +39,6 @@ DEMO_SOURCE = "<demo>"
 #: aircraft touch down at about 1.15 V_S or more).
 TOUCHDOWN_RATIO_PRACTICE = 1.15
 
-#: Keys that are alternatives: overriding one with --set drops the others from the file.
-_REPLACES = {
-    "runway.condition_code": ("runway.braking_mu", "runway.rolling_mu"),
-    "runway.braking_mu": ("runway.condition_code",),
-    "runway.rolling_mu": ("runway.condition_code",),
-    "conditions.temperature": ("conditions.isa_deviation",),
-    "conditions.isa_deviation": ("conditions.temperature",),
-}
 _SECTIONS = ("scenario", "aircraft", "conditions", "runway", "procedure")
 _THRUST_SETTINGS = ("idle", "reverse")
 
@@ -99,7 +92,7 @@ def parse_study(
     fixed = set()
     for item in overrides:
         key, value = parse_set(item)
-        for other in _REPLACES.get(key, ()):  # an override of one form replaces the other form
+        for other in replaced_by(key):  # an override of one form replaces the other form
             raw.get(other.split(".")[0], {}).pop(other.split(".")[1], None)
         _assign(raw, key, value)
         fixed.add(key)
@@ -107,22 +100,18 @@ def parse_study(
     tables, correlation = raw.pop("uncertain", None), raw.pop("correlation", None)
     try:
         values, flat = _values(raw, source, origin, optional=set(tables or {}))
-        uncertain = parse_uncertain(tables, correlation, values, base_dir)
+        given = {k for k in flat if k in KEYS}
+        uncertain = parse_uncertain(tables, correlation, values, base_dir, given=given)
         dropped = fixed & set(uncertain.keys)
         if dropped:
             uncertain = uncertain.without(dropped)
         for u in uncertain.inputs:  # a required key given only as a distribution: its median
             if values[u.key] is None and KEYS[u.key].required:
-                values[u.key] = _nominal(u.key, float(u.marginal.ppf(0.5)))
+                values[u.key] = KEYS[u.key].cast(float(u.marginal.ppf(0.5)))
         _check_together(values, flat)
     except ConfigError as exc:
         raise exc.with_file(source) from None
     return Scenario(values=values, source=source, text=text, overrides=overrides), uncertain
-
-
-def _nominal(key: str, value: float) -> Any:
-    kind = KEYS[key].kind
-    return bool(value > 0.5) if kind == "bool" else round(value) if kind == "int" else value
 
 
 def _read(p: Path) -> str:
@@ -298,16 +287,12 @@ def _values(
 
 def _check_together(v: dict[str, Any], flat: Mapping[str, Any]) -> None:
     """Rules that involve more than one key."""
-    if v["conditions.temperature"] is not None and "conditions.isa_deviation" in flat:
-        raise ConfigError("give conditions.temperature or conditions.isa_deviation, not both",
-                          key="conditions.isa_deviation", value=flat["conditions.isa_deviation"])
-    code = v["runway.condition_code"]
-    if code is not None:
-        for other in ("runway.braking_mu", "runway.rolling_mu"):
-            if v[other] is not None:
-                raise ConfigError("give runway.condition_code or explicit friction coefficients, not "
-                                  "both", key=other, value=flat[other])
-    elif v["runway.braking_mu"] is None:
+    clash = conflicting_forms({k for k in flat if k in KEYS})
+    if clash is not None:
+        alt, _, second = clash
+        raise ConfigError(f"give {alt.what} by {' and '.join(alt.forms[0])} or by "
+                          f"{' and '.join(alt.forms[1])}, not both", key=second, value=flat[second])
+    if v["runway.condition_code"] is None and v["runway.braking_mu"] is None:
         raise ConfigError("is required unless runway.condition_code is given", key="runway.braking_mu",
                           allowed=KEYS["runway.braking_mu"].allowed())
     if v["procedure.use_reverse"] and "aircraft.thrust.reverse.__given__" not in flat:

@@ -31,6 +31,7 @@ import numpy as np
 
 from landrisk.errors import ConfigError
 from landrisk.model import KEYS, Key
+from landrisk.model.schema import conflicting_forms
 from landrisk.units import UnitError, to_unit
 from landrisk.uq import FAMILIES, Marginal, Problem, make_marginal
 
@@ -100,9 +101,16 @@ def _with_correlations(
 
 
 def parse_uncertain(
-    tables: Any, correlation: Any, values: Mapping[str, Any], base_dir: Path | None
+    tables: Any,
+    correlation: Any,
+    values: Mapping[str, Any],
+    base_dir: Path | None,
+    given: set[str] | None = None,
 ) -> UncertainSet:
-    """Check the ``uncertain`` tables and ``correlation`` list against the scenario ``values``."""
+    """Check the ``uncertain`` tables and ``correlation`` list against the scenario ``values``.
+
+    ``given`` names the keys the file gives a value for (default: those whose value is not None).
+    """
     if tables is None and correlation is None:
         return UncertainSet()
     if tables is not None and not isinstance(tables, dict):
@@ -116,7 +124,9 @@ def parse_uncertain(
         if not isinstance(body, dict):
             raise ConfigError("must be a table", key=f'uncertain."{key}"', value=body)
         inputs.append(_one(spec, body, base_dir))
-    _check_exclusive(tuple(u.key for u in inputs), values)
+    if given is None:
+        given = {k for k, v in values.items() if v is not None}
+    _check_exclusive({u.key for u in inputs}, given)
     corr = _correlations(correlation, {u.key for u in inputs})
     try:
         result = _with_correlations(tuple(inputs), corr)
@@ -236,23 +246,16 @@ def _check_support(spec: Key, m: Marginal, where: str) -> None:
             allowed=spec.allowed())
 
 
-def _check_exclusive(keys: tuple[str, ...], values: Mapping[str, Any]) -> None:
-    ks = set(keys)
-    if "runway.condition_code" in ks:
-        for other in ("runway.braking_mu", "runway.rolling_mu"):
-            if values.get(other) is not None or other in ks:
-                raise ConfigError(f"an uncertain runway condition code sets the friction; remove {other}",
-                                  key='uncertain."runway.condition_code"')
-    elif values.get("runway.condition_code") is not None:
-        for other in ("runway.braking_mu", "runway.rolling_mu"):
-            if other in ks:
-                raise ConfigError("the runway gives a condition_code, which sets the friction; give "
-                                  "braking_mu and rolling_mu instead to make them uncertain",
-                                  key=f'uncertain."{other}"')
-    temp, dev = "conditions.temperature", "conditions.isa_deviation"
-    if (temp in ks and (dev in ks or values.get(dev))) or (dev in ks and values.get(temp) is not None):
-        raise ConfigError("give the temperature either as temperature or as isa_deviation",
-                          key=f'uncertain."{temp if temp in ks else dev}"')
+def _check_exclusive(uncertain: set[str], given: set[str]) -> None:
+    """An uncertain key must not sit beside a key of the other form of its alternative (schema)."""
+    clash = conflicting_forms(uncertain | given)
+    if clash is None or not ({clash[1], clash[2]} & uncertain):
+        return  # no clash, or one between fixed values only (the scenario reader reports that)
+    alt, first, second = clash
+    key = first if first in uncertain else second
+    other = second if key == first else first
+    raise ConfigError(f"{alt.what} is given both by {first} and by {second}; remove {other}",
+                      key=f'uncertain."{key}"', allowed=" or ".join(", ".join(f) for f in alt.forms))
 
 
 def _correlations(raw: Any, uncertain: set[str]) -> tuple[dict[str, Any], ...]:

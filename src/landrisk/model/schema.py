@@ -13,7 +13,9 @@ import math
 from dataclasses import dataclass
 from typing import Any, Literal
 
-__all__ = ["KEYS", "Key", "keys_markdown"]
+import numpy as np
+
+__all__ = ["ALTERNATIVES", "KEYS", "Alternative", "Key", "conflicting_forms", "keys_markdown", "replaced_by"]
 
 Kind = Literal["quantity", "int", "bool", "str"]
 
@@ -71,6 +73,26 @@ class Key:
         if self.kind == "int":
             rng = f"integer {self.lo:g}..{self.hi:g}"
         return f"{rng} {self.unit}".rstrip() if self.unit else rng
+
+    def cast(self, value: Any) -> Any:
+        """A number (e.g. a sample) in the key's own type: true/false, a whole number, or a float.
+
+        True/false keys are true above 1/2; whole-number keys are rounded to the nearest integer.
+        """
+        if self.kind == "bool":
+            return bool(value > 0.5)
+        if self.kind == "int":
+            return round(value)
+        return float(value)
+
+    def cast_array(self, values: Any) -> Any:
+        """:meth:`cast` for an array of samples (a numpy array of bools, ints or floats)."""
+        x = np.asarray(values)
+        if self.kind == "bool":
+            return x > 0.5
+        if self.kind == "int":
+            return np.rint(x).astype(int)
+        return x
 
     def contains(self, value: float) -> bool:
         """Whether ``value`` lies in the allowed range."""
@@ -165,6 +187,62 @@ _KEYS: list[Key] = [
 
 #: Every key of the scenario file, by dotted name, in file order.
 KEYS: dict[str, Key] = {k.name: k for k in _KEYS}
+
+
+@dataclass(frozen=True)
+class Alternative:
+    """Two ways of giving one thing; a scenario uses one form or the other, never both.
+
+    Attributes
+    ----------
+    what : str
+        What the forms give, in words (``"the runway friction"``).
+    forms : tuple of tuple of str
+        The forms, each a group of keys (``("runway.condition_code",)`` or the two coefficients).
+    required : bool
+        Whether one form must be given (friction: yes; temperature: no, a standard day by default).
+    """
+
+    what: str
+    forms: tuple[tuple[str, ...], tuple[str, ...]]
+    required: bool = False
+
+    def form_of(self, key: str) -> int | None:
+        """0 or 1, the form that ``key`` belongs to; None if it belongs to neither."""
+        for i, keys in enumerate(self.forms):
+            if key in keys:
+                return i
+        return None
+
+    def others(self, key: str) -> tuple[str, ...]:
+        """The keys of the other form than ``key``'s (empty if ``key`` is in neither)."""
+        i = self.form_of(key)
+        return () if i is None else self.forms[1 - i]
+
+
+#: Keys that exclude each other. Setting a key of one form (with ``--set``) drops the other form from
+#: the file; giving both forms, as values or as uncertain inputs, is an error.
+ALTERNATIVES: tuple[Alternative, ...] = (
+    Alternative("the runway friction", (("runway.condition_code",),
+                                        ("runway.braking_mu", "runway.rolling_mu")), required=True),
+    Alternative("the temperature", (("conditions.temperature",), ("conditions.isa_deviation",))),
+)
+
+
+def replaced_by(key: str) -> tuple[str, ...]:
+    """The keys that giving ``key`` replaces: those of the other form of its alternative."""
+    return tuple(k for alt in ALTERNATIVES for k in alt.others(key))
+
+
+def conflicting_forms(present: set[str]) -> tuple[Alternative, str, str] | None:
+    """The first alternative of which ``present`` holds keys of both forms: (it, a key of the first
+    form, a key of the second form); None if every alternative is given in one form at most."""
+    for alt in ALTERNATIVES:
+        first = [k for k in alt.forms[0] if k in present]
+        second = [k for k in alt.forms[1] if k in present]
+        if first and second:
+            return alt, first[0], second[0]
+    return None
 
 
 def keys_markdown() -> str:

@@ -132,13 +132,10 @@ def landing_model(
 
     Columns of whole-valued keys are rounded (condition code) or compared with 1/2 (true/false keys).
     """
-    kinds = [KEYS[k].kind for k in keys]
+    specs = [KEYS[k] for k in keys]
 
     def f(x: NDArray[np.float64]) -> dict[str, NDArray]:
-        values: dict[str, NDArray] = {}
-        for j, (k, kind) in enumerate(zip(keys, kinds, strict=True)):
-            col = x[:, j]
-            values[k] = col > 0.5 if kind == "bool" else np.rint(col).astype(int) if kind == "int" else col
+        values = {spec.name: spec.cast_array(x[:, j]) for j, spec in enumerate(specs)}
         try:
             r = solve_landings(scenario.case(values))
         except ValueError as exc:

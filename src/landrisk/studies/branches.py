@@ -20,9 +20,8 @@ __all__ = ["cast_value", "discrete_branches", "split_discrete"]
 
 
 def cast_value(key: str, v: float) -> Any:
-    """A sampled value in the key's own type: true/false, a whole number, or a float."""
-    kind = KEYS[key].kind
-    return bool(v > 0.5) if kind == "bool" else round(v) if kind == "int" else float(v)
+    """A sampled value in the key's own type (see :meth:`landrisk.model.Key.cast`)."""
+    return KEYS[key].cast(v)
 
 
 def discrete_branches(problem: Problem, disc: list[int]) -> list[tuple[dict[str, Any], float]]:
