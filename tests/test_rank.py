@@ -83,10 +83,10 @@ def demo_ranking():
 def test_demo_surrogate_matches_a_million_sample_monte_carlo(demo_ranking) -> None:
     r, scenario, uncertain = demo_ranking
     mc = api.assess(scenario, uncertain, samples=1_000_000, seed=11)
-    by = {p.p: p.value for p in r.surrogate["percentiles"]}
+    by = {p.p: p.value for p in r.surrogate.percentiles}
     mc_pct = {p.p: p.value for p in mc.percentiles["total_m"]}
-    assert r.surrogate["mean_m"] == pytest.approx(mc.moments["total_m"][0], rel=0.005)
-    assert r.surrogate["sd_m"] == pytest.approx(mc.moments["total_m"][1], rel=0.005)
+    assert r.surrogate.mean_m == pytest.approx(mc.moments["total_m"][0], rel=0.005)
+    assert r.surrogate.sd_m == pytest.approx(mc.moments["total_m"][1], rel=0.005)
     assert by[50.0] == pytest.approx(mc_pct[50.0], rel=0.005)
     assert by[99.0] == pytest.approx(mc_pct[99.0], rel=0.005)
     assert r.calls <= 1000
@@ -119,7 +119,7 @@ def test_indices_are_consistent(demo_ranking) -> None:
     for i in r.inputs:
         assert 0 <= i.first <= i.total + 1e-12 <= 1 + 1e-12
     assert sum(i.first for i in r.inputs) <= 1 + 1e-9
-    assert r.chaos["holdout_rel_error"] < 0.05 and r.chaos["terms"] * 2 <= r.chaos["training_calls"]
+    assert r.chaos.holdout_rel_error < 0.05 and r.chaos.terms * 2 <= r.chaos.training_calls
 
 
 def run(*args: str):

@@ -122,7 +122,7 @@ def test_method_that_does_not_converge_says_so(short_runway) -> None:
     assert not r.converged
     text = render_rare(r)
     assert "NO ESTIMATE - THE METHOD DID NOT CONVERGE" in text and "P(overrun) = " not in text
-    from landrisk.studies import rare_record
+    from landrisk.export import rare_record
 
     assert rare_record(r)["p_overrun"] is None
 

@@ -148,7 +148,7 @@ def assess(config: str | None, samples: int, seed: int, sampler: str, method: st
         rare = api.rare(scenario, uncertain, method=method, seed=seed)
         written = [str(p) for p in api.write_rare(rare, out_dir, force=force)] if out_dir else None
         if as_json:
-            click.echo(json.dumps(api.rare_full_record(rare), indent=2, default=str))
+            click.echo(json.dumps(api.rare_record(rare), indent=2, default=str))
         else:
             click.echo(report.render_rare(rare, written))
         return
@@ -210,7 +210,7 @@ def rank(config: str | None, method: str, order: str, calls: int | None, seed: i
                       mc_check=mc_check if method == "pce" else 0)
     written = [str(p) for p in api.write_ranking(result, out_dir, force=force)] if out_dir else None
     if as_json:
-        click.echo(json.dumps({k: v for k, v in api.rank_record(result).items() if k != "scenario_text"},
+        click.echo(json.dumps({k: v for k, v in api.ranking_record(result).items() if k != "scenario_text"},
                               indent=2, default=str))
     else:
         click.echo(report.render_rank(result, written))

@@ -194,10 +194,10 @@ def surrogate_exceedance_figure(r: Ranking) -> Figure:
     """Exceedance curve of the total distance from the surrogate, beside the Monte Carlo check's."""
     plt = _pyplot()
     fig, ax = plt.subplots(figsize=(8, 5))
-    curves = [("surrogate", r.surrogate.get("sorted_total_m"))]
-    if r.mc_check:
-        label = f"Monte Carlo check, real solver ({r.mc_check['samples']:,})"
-        curves.append((label, r.mc_check["sorted_total_m"]))
+    curves = [("surrogate", r.surrogate.sorted_total_m if r.surrogate is not None else None)]
+    if r.mc_check is not None:
+        label = f"Monte Carlo check, real solver ({r.mc_check.samples:,})"
+        curves.append((label, r.mc_check.sorted_total_m))
     floor = 1.0
     for label, xs in curves:
         if xs is None or xs.size == 0:
@@ -213,7 +213,8 @@ def surrogate_exceedance_figure(r: Ranking) -> Figure:
     ax.set_ylim(floor, 1)
     ax.set_xlabel("total landing distance from the screen height x [m]")
     ax.set_ylabel("probability that the distance exceeds x")
-    verdict = "passed" if r.chaos.get("tail_ok") else "FAILED: the surrogate's tail is not reliable"
+    passed = r.tail is not None and r.tail.passed
+    verdict = "passed" if passed else "FAILED: the surrogate's tail is not reliable"
     ax.set_title(f"Surrogate exceedance curve: {r.scenario.name} (tail check {verdict})", fontsize=9)
     ax.grid(True, which="both", alpha=0.3)
     ax.legend(fontsize=8, loc="lower left")
@@ -231,11 +232,12 @@ def risk_curve_figure(r: RareAssessment) -> Figure:
     """P(overrun) against the landing distance available, one curve per method, on a log axis."""
     plt = _pyplot()
     rc = r.risk_curve
+    assert rc is not None
     fig, ax = plt.subplots(figsize=(8, 5.2))
-    ax.plot(rc["lda_m"], rc["p_subset"], label=f"subset simulation ({rc['subset_calls']:,} solver calls)")
-    ax.plot(rc["lda_m"], rc["p_mc"], lw=2.5, alpha=0.6, label=f"Monte Carlo ({rc['mc_samples']:,} samples)")
-    pts = np.array(rc["form_points"])
-    ax.plot(pts[:, 0], pts[:, 1], "s", label=f"FORM ({rc['form_calls']:,} calls)")
+    ax.plot(rc.lda_m, rc.p_subset, label=f"subset simulation ({rc.subset_calls:,} solver calls)")
+    ax.plot(rc.lda_m, rc.p_mc, lw=2.5, alpha=0.6, label=f"Monte Carlo ({rc.mc_samples:,} samples)")
+    pts = np.array(rc.form_points)
+    ax.plot(pts[:, 0], pts[:, 1], "s", label=f"FORM ({rc.form_calls:,} calls)")
     lda = float(r.scenario.values["runway.lda"])
     ax.errorbar([lda], [r.probability], yerr=[[r.probability - r.ci[0]], [r.ci[1] - r.probability]],
                 fmt="o", color="black", capsize=4,

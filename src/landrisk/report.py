@@ -167,14 +167,14 @@ def render_rank(r: Ranking, written: list[str] | None = None) -> str:
         f"landrisk {__version__} - which uncertain inputs drive the landing distance",
         f"Scenario: {s.name} ({s.source})" + (f" with {', '.join(s.overrides)}" if s.overrides else ""),
     ]
-    if r.method == "pce":
+    if r.chaos is not None:
         c = r.chaos
         lines += [
-            f"Method: polynomial chaos, order {c['order']} (q-norm {c['q_norm']:g}, {c['terms']} terms) per "
-            f"branch, {c['branches']} branch(es); {r.calls} solver calls ({c['training_calls']} training + "
-            f"{c['holdout_calls']} hold-out per branch)",
-            f"  hold-out error of the total distance: {100 * c['holdout_rel_error']:.2f} % of its sd (RMS), "
-            f"largest {c['holdout_max_error_m']:.1f} m ({100 * c['holdout_max_rel_error']:.2f} %)",
+            f"Method: polynomial chaos, order {c.order} (q-norm {c.q_norm:g}, {c.terms} terms) per "
+            f"branch, {c.branches} branch(es); {r.calls} solver calls ({c.training_calls} training + "
+            f"{c.holdout_calls} hold-out per branch)",
+            f"  hold-out error of the total distance: {100 * c.holdout_rel_error:.2f} % of its sd (RMS), "
+            f"largest {c.holdout_max_error_m:.1f} m ({100 * c.holdout_max_rel_error:.2f} %)",
         ]
     else:
         lines.append(f"Method: Monte Carlo pick-freeze (Saltelli 2010 first order, Jansen total), "
@@ -191,23 +191,23 @@ def render_rank(r: Ranking, written: list[str] | None = None) -> str:
     if r.second_order:
         pairs = ", ".join(f"{a} x {b} {v:.3f}" for a, b, v in r.second_order)
         lines.append(f"  largest interactions: {pairs}")
-    if r.method == "pce":
-        sur, c = r.surrogate, r.chaos
-        by = {p.p: p for p in sur["percentiles"]}
-        lines += ["", f"From {sur['samples']:,} surrogate samples: mean {sur['mean_m']:.1f} m, sd "
-                  f"{sur['sd_m']:.1f} m, P50 {by[50.0].value:.1f} m, P99 {by[99.0].value:.1f} m, "
-                  f"P(overrun) {sur['p_overrun'].text()}",
-                  f"  tail check on the real solver ({c['tail_check_calls']} samples in the tail and near "
-                  f"the runway end): RMS error {100 * c['tail_rel_rms']:.2f} %, largest "
-                  f"{100 * c['tail_max_rel']:.1f} %, {c['misclassified_overruns']} of {c['near_runway_end']} "
-                  "overruns misclassified: " + ("passed" if c["tail_ok"] else _TAIL_FAILED)]
-        if r.mc_check:
+    if r.surrogate is not None and r.tail is not None:
+        sur, t = r.surrogate, r.tail
+        by = {p.p: p for p in sur.percentiles}
+        lines += ["", f"From {sur.samples:,} surrogate samples: mean {sur.mean_m:.1f} m, sd "
+                  f"{sur.sd_m:.1f} m, P50 {by[50.0].value:.1f} m, P99 {by[99.0].value:.1f} m, "
+                  f"P(overrun) {sur.p_overrun.text()}",
+                  f"  tail check on the real solver ({t.calls} samples in the tail and near "
+                  f"the runway end): RMS error {100 * t.rel_rms:.2f} %, largest "
+                  f"{100 * t.max_rel:.1f} %, {t.misclassified_overruns} of {t.near_runway_end} "
+                  "overruns misclassified: " + ("passed" if t.passed else _TAIL_FAILED)]
+        if r.mc_check is not None:
             m = r.mc_check
-            d = m["rel_diff"]
-            lines.append(f"  Monte Carlo check ({m['samples']:,} solver runs): mean {m['mean_m']:.1f} m "
-                         f"({100 * d['mean']:+.2f} %), sd {m['sd_m']:.1f} m ({100 * d['sd']:+.2f} %), P50 "
-                         f"{m['p50_m']:.1f} m ({100 * d['p50']:+.2f} %), P99 {m['p99_m']:.1f} m "
-                         f"({100 * d['p99']:+.2f} %), P(overrun) {m['p_overrun'].text()}")
+            d = m.rel_diff
+            lines.append(f"  Monte Carlo check ({m.samples:,} solver runs): mean {m.mean_m:.1f} m "
+                         f"({100 * d['mean']:+.2f} %), sd {m.sd_m:.1f} m ({100 * d['sd']:+.2f} %), P50 "
+                         f"{m.p50_m:.1f} m ({100 * d['p50']:+.2f} %), P99 {m.p99_m:.1f} m "
+                         f"({100 * d['p99']:+.2f} %), P(overrun) {m.p_overrun.text()}")
     if r.risk is not None:
         lines += ["", "Influence on the overrun itself: Sobol indices of the overrun indicator, Monte Carlo "
                   f"on the solver ({r.risk_events} overruns in {2 * r.settings.risk_samples:,} samples)"]
@@ -256,10 +256,10 @@ def render_rare(r: RareAssessment, written: list[str] | None = None) -> str:
         extra = f", CoV {100 * cov:.1f} %" if cov and np.isfinite(cov) else ""
         lines.append(f"    {label} (probability {b.probability:g}): {b.estimate.probability:.3e}{extra}, "
                      f"{b.estimate.calls:,} calls")
-    if r.cross_check_probability:
-        p, ci, calls = r.cross_check_probability
-        lines.append(f"  cross-check by subset simulation: {p:.3e} [{ci[0]:.2e}, {ci[1]:.2e}] "
-                     f"({calls:,} calls)")
+    if r.cross_check is not None:
+        c = r.cross_check
+        lines.append(f"  cross-check by subset simulation: {c.probability:.3e} [{c.ci[0]:.2e}, "
+                     f"{c.ci[1]:.2e}] ({c.calls:,} calls)")
     if r.design_point:
         lines += ["", "The most likely overrun (design point of the dominant branch) and each input's "
                   "importance alpha^2:"]
@@ -269,12 +269,12 @@ def render_rare(r: RareAssessment, written: list[str] | None = None) -> str:
             nominal = _show(k, s.values[k]) if s.values.get(k) is not None else "-"
             tail = f"   alpha^2 {a2:.3f}" if a2 is not None else ""
             lines.append(f"  {k:<34}{shown:>16}   (nominal {nominal}){tail}")
-    if r.risk_curve:
+    if r.risk_curve is not None:
         rc = r.risk_curve
         lines += ["", "Risk curve (subset simulation, mixed over branches): P(overrun) for a runway of"]
         for target in (1e-3, 1e-5, 1e-7, 1e-9):
-            i = int(np.argmin(np.abs(np.log(np.maximum(rc["p_subset"], 1e-300)) - np.log(target))))
-            lines.append(f"  {rc['lda_m'][i]:8.0f} m: {rc['p_subset'][i]:.1e}")
+            i = int(np.argmin(np.abs(np.log(np.maximum(rc.p_subset, 1e-300)) - np.log(target))))
+            lines.append(f"  {rc.lda_m[i]:8.0f} m: {rc.p_subset[i]:.1e}")
     return _closing(lines, r.messages, written)
 
 

@@ -12,6 +12,7 @@ from numpy.typing import ArrayLike
 
 from landrisk.model.case import LandingCase, case_from_values
 from landrisk.model.schema import KEYS
+from landrisk.model.solver import LandingResult
 
 __all__ = ["Scenario", "SingleLanding"]
 
@@ -99,3 +100,23 @@ class SingleLanding:
     beyond_end_m: float
     stopped_in_free_roll: bool
     derived: Mapping[str, float]
+
+    @classmethod
+    def of(cls, scenario: Scenario, result: LandingResult) -> SingleLanding:
+        """The first landing of a solver result, with the derived inputs of the scenario's case."""
+        case = scenario.case()
+        out = {name: _scalar(getattr(result, name)) for name in cls.__dataclass_fields__
+               if name not in ("scenario", "derived")}
+        derived = {
+            "density_kg_m3": _scalar(case.density),
+            "rolling_mu": _scalar(case.rolling_mu),
+            "braking_mu": _scalar(case.braking_mu),
+            "flare_speed_ratio": _scalar(case.flare_speed_ratio),
+            "slope_angle_rad": _scalar(case.slope_angle),
+        }
+        return cls(scenario=scenario, derived=derived, **out)
+
+
+def _scalar(x: Any) -> Any:
+    v = np.asarray(x).reshape(-1)[0]
+    return bool(v) if v.dtype == bool else float(v)

@@ -1,4 +1,5 @@
-"""Studies that join the landing model and the uncertainty machinery."""
+"""Studies that join the landing model and the uncertainty machinery. They compute; they neither
+format nor write (records, tables and files are :mod:`landrisk.export`'s)."""
 
 from landrisk.studies.assess import (
     COMPARISON_FACTORS,
@@ -8,20 +9,20 @@ from landrisk.studies.assess import (
     AssessSettings,
     ComparisonLine,
     assess,
-    landing_model,
-    samples_frame_columns,
-    summary_record,
 )
-from landrisk.studies.rank import InputRank, Ranking, RankSettings, rank, ranking_record
-from landrisk.studies.rare import RARE_METHODS, RareAssessment, RareSettings, rare_assess, rare_record
+from landrisk.studies.binding import OUTPUTS, Branch, landing_model, limit_state
+from landrisk.studies.rank import InputRank, Ranking, RankSettings, rank
+from landrisk.studies.rare import RARE_METHODS, RareAssessment, RareSettings, rare_assess
 
 __all__ = [
     "COMPARISON_FACTORS",
+    "OUTPUTS",
     "PERCENTILES",
     "PHASES",
     "RARE_METHODS",
     "AssessSettings",
     "Assessment",
+    "Branch",
     "ComparisonLine",
     "InputRank",
     "RankSettings",
@@ -30,10 +31,7 @@ __all__ = [
     "RareSettings",
     "assess",
     "landing_model",
+    "limit_state",
     "rank",
-    "ranking_record",
     "rare_assess",
-    "rare_record",
-    "samples_frame_columns",
-    "summary_record",
 ]

@@ -16,8 +16,9 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from landrisk.errors import LandriskError, SolveError
-from landrisk.model import KEYS, Scenario, solve_landings, solve_one
+from landrisk.errors import LandriskError
+from landrisk.model import Scenario, solve_one
+from landrisk.studies.binding import landing_model
 from landrisk.uq import (
     EventProbability,
     Percentile,
@@ -37,9 +38,6 @@ __all__ = [
     "Assessment",
     "ComparisonLine",
     "assess",
-    "landing_model",
-    "samples_frame_columns",
-    "summary_record",
 ]
 
 #: Percentiles reported (in percent), where the sample supports them.
@@ -59,10 +57,6 @@ COMPARISON_FACTORS: tuple[tuple[str, float, str], ...] = (
     ("time-of-arrival margin x1.15", 1.15,
      "FAA SAFO 06012 (2006): at least 15 % over the actual landing distance"),
 )
-
-_OUTPUTS = ("total_m", "air_distance_m", "free_roll_m", "braking_m", "margin_m",
-            "runway_end_ground_speed", "overrun", "lift_exceeds_weight", "cannot_stop")
-
 
 @dataclass(frozen=True)
 class AssessSettings:
@@ -123,28 +117,6 @@ class Assessment:
     def sorted_total(self) -> NDArray[np.float64]:
         """The total distances in ascending order."""
         return np.sort(self.outputs["total_m"])
-
-
-def landing_model(
-    scenario: Scenario, keys: tuple[str, ...]
-) -> Callable[[NDArray[np.float64]], dict[str, NDArray]]:
-    """The vectorised model f(X[n, d]) of the scenario, X's columns being the dotted ``keys``.
-
-    Columns of whole-valued keys are rounded (condition code) or compared with 1/2 (true/false keys).
-    """
-    specs = [KEYS[k] for k in keys]
-
-    def f(x: NDArray[np.float64]) -> dict[str, NDArray]:
-        values = {spec.name: spec.cast_array(x[:, j]) for j, spec in enumerate(specs)}
-        try:
-            r = solve_landings(scenario.case(values))
-        except ValueError as exc:
-            raise SolveError(f"{scenario.source}: samples the model cannot evaluate ({exc}); "
-                             "truncate the distributions involved (for a headwind: its upper bound "
-                             "below the touchdown speed)") from None
-        return {name: getattr(r, name) for name in _OUTPUTS}
-
-    return f
 
 
 def assess(
@@ -218,54 +190,3 @@ def assess(
         convergence=convergence(out["total_m"], overrun, 0.99),
         record=dict(record or {}),
     )
-
-
-def summary_record(a: Assessment) -> dict[str, Any]:
-    """The JSON-ready figures of an assessment (no provenance; the caller adds it)."""
-
-    def pct(items: list[Percentile]) -> dict[str, Any]:
-        return {f"{p.p:g}": p.as_dict() for p in items}
-
-    tot = a.percentiles["total_m"]
-    return {
-        "samples": a.n,
-        "seed": a.settings.seed,
-        "sampler": a.settings.sampler,
-        "confidence": a.settings.confidence,
-        "lda_m": a.lda_m,
-        "mean_m": a.moments["total_m"][0],
-        "sd_m": a.moments["total_m"][1],
-        "mean_ci95_m": [a.moments["total_m"][2], a.moments["total_m"][3]],
-        "percentiles_m": {f"{p.p:g}": p.value for p in tot if p.supported},
-        "percentiles_ci95_m": {f"{p.p:g}": [p.lo, p.hi] for p in tot if p.supported},
-        "unsupported_percentiles": [f"{p.p:g}" for p in tot if not p.supported],
-        "p_overrun": a.p_overrun.estimate,
-        "p_overrun_ci95": [a.p_overrun.lo, a.p_overrun.hi],
-        "p_overrun_upper_bound_only": a.p_overrun.upper_bound_only,
-        "overruns": a.p_overrun.events,
-        "resa_length_m": a.resa_length_m,
-        "p_beyond_resa": a.p_beyond_resa.as_dict(),
-        "overrun_ground_speed_ms": pct(a.overrun_speed),
-        "overrun_ground_speed_min_ms": a.overrun_speed_min,
-        "overrun_ground_speed_max_ms": a.overrun_speed_max,
-        "phases": {name: {"mean_m": a.moments[name][0], "sd_m": a.moments[name][1],
-                          "percentiles": pct(a.percentiles[name])} for name in PHASES},
-        "comparison_lines": [{"name": c.name, "factor": c.factor, "source": c.source,
-                              "distance_m": c.distance_m, "p_exceed": c.p_exceed.as_dict()}
-                             for c in a.comparisons],
-        "nominal_total_m": a.nominal_total_m,
-        "flags": a.flags,
-    }
-
-
-def samples_frame_columns(a: Assessment) -> Mapping[str, NDArray]:
-    """Columns of the per-sample table: every uncertain input, then the phases and the outcome."""
-    cols: dict[str, NDArray] = {}
-    if a.inputs is not None:
-        for j, k in enumerate(a.problem.names):
-            cols[k] = a.inputs[:, j]
-    for k in ("air_distance_m", "free_roll_m", "braking_m", "total_m", "margin_m",
-              "runway_end_ground_speed", "overrun"):
-        cols[k] = a.outputs[k]
-    cols["lda_m"] = a.outputs["total_m"] + a.outputs["margin_m"]
-    return cols

@@ -20,23 +20,22 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
 
 from landrisk.errors import LandriskError
-from landrisk.model import Scenario, solve_landings
-from landrisk.studies.assess import AssessSettings, assess, landing_model
-from landrisk.studies.branches import cast_value as _cast
-from landrisk.studies.branches import discrete_branches as _branches
-from landrisk.studies.branches import split_discrete as _split
+from landrisk.model import KEYS, Scenario, solve_landings
+from landrisk.studies.assess import AssessSettings, assess
+from landrisk.studies.binding import Branch, discrete_branches, landing_model, limit_state, split_discrete
 from landrisk.uq import (
+    ChaosFit,
     ChaosSpace,
     EventProbability,
     MonteCarloSobol,
     Percentile,
     Problem,
+    SobolIndices,
     event_probability,
     fit_chaos,
     normalize_seed,
@@ -44,12 +43,16 @@ from landrisk.uq import (
     sobol_indices,
     sobol_monte_carlo,
 )
+from landrisk.uq.rare import form
 
-__all__ = ["InputRank", "RankSettings", "Ranking", "rank"]
+__all__ = ["ChaosSummary", "InputRank", "MonteCarloCheck", "RankSettings", "Ranking", "SurrogateSample",
+           "TailCheck", "rank"]
 
 _OUTPUTS = ("total_m", "air_distance_m", "free_roll_m", "braking_m", "margin_m")
 _PHASES = ("total_m", "air_distance_m", "free_roll_m", "braking_m")
 SURROGATE_PERCENTILES = (1.0, 5.0, 50.0, 90.0, 95.0, 99.0, 99.9)
+
+Array = NDArray[np.float64]
 
 
 @dataclass(frozen=True)
@@ -88,6 +91,61 @@ class InputRank:
 
 
 @dataclass(frozen=True)
+class ChaosSummary:
+    """The fitted surrogate: its truncation and its hold-out validation (the total distance)."""
+
+    order: int
+    q_norm: float
+    terms: int
+    branches: int
+    training_calls: int  # per branch
+    holdout_calls: int  # per branch
+    loo_error: float  # relative leave-one-out error of the most probable branch
+    holdout_rel_error: float  # RMS hold-out error over the sd of the distance, pooled over branches
+    holdout_max_error_m: float
+    holdout_max_rel_error: float
+
+
+@dataclass(frozen=True)
+class TailCheck:
+    """The surrogate against the real solver on samples in its tail and near the runway end."""
+
+    calls: int
+    rel_rms: float
+    max_rel: float
+    bias_rel: float
+    near_runway_end: int
+    misclassified_overruns: int
+    passed: bool
+
+
+@dataclass(frozen=True)
+class SurrogateSample:
+    """Figures from sampling the surrogate. Distances in metres."""
+
+    samples: int
+    mean_m: float
+    sd_m: float
+    percentiles: list[Percentile]
+    p_overrun: EventProbability
+    sorted_total_m: Array = field(repr=False)
+
+
+@dataclass(frozen=True)
+class MonteCarloCheck:
+    """A Monte Carlo run of the real solver beside the surrogate. Distances in metres."""
+
+    samples: int
+    mean_m: float
+    sd_m: float
+    p50_m: float
+    p99_m: float
+    p_overrun: EventProbability
+    sorted_total_m: Array = field(repr=False)
+    rel_diff: dict[str, float] = field(default_factory=dict)  # surrogate / Monte Carlo - 1
+
+
+@dataclass(frozen=True)
 class Ranking:
     """The result of :func:`rank`."""
 
@@ -102,9 +160,10 @@ class Ranking:
     phase_indices: dict[str, dict[str, tuple[float, float]]]
     risk: MonteCarloSobol | None
     risk_events: int
-    chaos: dict[str, Any] = field(default_factory=dict)  # order, q, terms, hold-out and tail checks
-    surrogate: dict[str, Any] = field(default_factory=dict)
-    mc_check: dict[str, Any] = field(default_factory=dict)
+    chaos: ChaosSummary | None = None
+    tail: TailCheck | None = None
+    surrogate: SurrogateSample | None = None
+    mc_check: MonteCarloCheck | None = None
     warnings: list[str] = field(default_factory=list)
     form_importance: dict[str, float] = field(default_factory=dict)  # alpha^2 at the design point
     form_beta: float | None = None
@@ -112,13 +171,17 @@ class Ranking:
     @property
     def reliable(self) -> bool:
         """False when the surrogate failed its hold-out or tail check (PCE only)."""
-        return self.method == "mc" or bool(self.chaos.get("reliable"))
+        if self.method == "mc":
+            return True
+        return bool(self.chaos is not None and self.tail is not None and self.tail.passed
+                    and self.chaos.holdout_rel_error <= self.settings.max_holdout_error)
 
 
-def _model(scenario: Scenario, keys: tuple[str, ...]) -> Callable[[NDArray], NDArray]:
+def _matrix_model(scenario: Scenario, keys: tuple[str, ...]) -> Callable[[Array], Array]:
+    """The landing model with the outputs of :data:`_OUTPUTS` as the columns of one matrix."""
     f = landing_model(scenario, keys)
 
-    def g(x: NDArray) -> NDArray:
+    def g(x: Array) -> Array:
         r = f(x)
         return np.column_stack([r[k] for k in _OUTPUTS])
 
@@ -132,7 +195,8 @@ def _swings(scenario: Scenario, problem: Problem) -> list[tuple[float, float, fl
         # P5 and P95; a discrete input between its least and greatest value (a rare value may lie
         # beyond both percentiles, e.g. a reverser unavailable on 3 % of landings).
         lo, hi = (m.lower, m.upper) if m.discrete else (float(v) for v in m.ppf(np.array([0.05, 0.95])))
-        res = solve_landings(scenario.case({name: np.array([_cast(name, lo), _cast(name, hi)])}))
+        spec = KEYS[name]
+        res = solve_landings(scenario.case({name: np.array([spec.cast(lo), spec.cast(hi)])}))
         out.append((lo, hi, float(res.total_m[1] - res.total_m[0]), float(res.margin_m[1] - res.margin_m[0])))
     return out
 
@@ -142,28 +206,38 @@ def _form_importance(
 ) -> tuple[dict[str, float], float | None, int]:
     """FORM importance factors alpha^2 of the continuous inputs at the design point of the branch that
     contributes most to P(overrun) (Hasofer & Lind 1974; see landrisk.uq.rare)."""
-    from landrisk.studies.rare import limit_state
-    from landrisk.uq.rare import form
-
-    disc, _, cont = _split(problem)
+    disc, _, cont = split_discrete(problem)
     if cont.dimension == 0:
         return {}, None, 0
     best, calls = None, 0
-    for values, p in _branches(problem, disc):
-        g, _ = limit_state(scenario, cont, values)
+    for b in discrete_branches(problem, disc):
+        g, _ = limit_state(scenario, cont, b.values)
         dps, c = form(g, cont.dimension, seed=rng)
         calls += c
-        if dps[0].converged and (best is None or p * dps[0].probability > best[0]):
-            best = (p * dps[0].probability, dps[0])
+        if dps[0].converged and (best is None or b.probability * dps[0].probability > best[0]):
+            best = (b.probability * dps[0].probability, dps[0])
     if best is None:
         return {}, None, calls
     dp = best[1]
     return {n: float(a) for n, a in zip(cont.names, dp.importance, strict=True)}, dp.beta, calls
 
 
-def rank(
-    scenario: Scenario, problem: Problem, settings: RankSettings | None = None
-) -> Ranking:
+def _overrun_indicator_indices(
+    scenario: Scenario, problem: Problem, s: RankSettings, rng: np.random.Generator
+) -> tuple[MonteCarloSobol, int, list[str]]:
+    """Sobol indices of the overrun indicator by Monte Carlo on the solver, the events behind them."""
+    indicator = _matrix_model(scenario, problem.names)
+    risk = sobol_monte_carlo(problem, lambda x: (indicator(x)[:, 4] < 0).astype(float), s.risk_samples,
+                             seed=rng, conf=s.confidence, bootstrap=100)
+    events = round(risk.mean * 2 * s.risk_samples)
+    notes = []
+    if events < 30:
+        notes.append(f"only {events} overruns among the {2 * s.risk_samples:,} samples behind the "
+                     "overrun-indicator indices: they are rough (see their intervals)")
+    return risk, events, notes
+
+
+def rank(scenario: Scenario, problem: Problem, settings: RankSettings | None = None) -> Ranking:
     """Rank the uncertain inputs of ``scenario`` by their Sobol indices (see the module docstring)."""
     s = settings or RankSettings()
     if problem.dimension == 0:
@@ -172,38 +246,62 @@ def rank(
         raise LandriskError(f"--method must be pce or mc, not {s.method!r}")
     rng = normalize_seed(s.seed)
     swings = _swings(scenario, problem)
-    warnings: list[str] = []
-
-    # Influence on the overrun itself: Sobol indices of the indicator, by Monte Carlo on the solver.
-    indicator = _model(scenario, problem.names)
-    risk = sobol_monte_carlo(problem, lambda x: (indicator(x)[:, 4] < 0).astype(float), s.risk_samples,
-                             seed=rng, conf=s.confidence, bootstrap=100)
-    risk_events = round(risk.mean * 2 * s.risk_samples)
-    if risk_events < 30:
-        warnings.append(f"only {risk_events} overruns among the {2 * s.risk_samples:,} samples behind the "
-                        "overrun-indicator indices: they are rough (see their intervals)")
+    risk, risk_events, warnings = _overrun_indicator_indices(scenario, problem, s, rng)
     breakdown = {"one-at-a-time swings": 2 * problem.dimension, "overrun-indicator indices": risk.calls}
     form_importance, form_beta, form_calls = _form_importance(scenario, problem, rng)
     breakdown["FORM importance factors"] = form_calls
-
+    common = {"risk": risk, "risk_events": risk_events, "form_importance": form_importance,
+              "form_beta": form_beta, "warnings": warnings}
     if s.method == "mc":
-        d = problem.dimension
-        n = max((s.calls or 8192 * (d + 2)) // (d + 2), 64)
-        total_model = _model(scenario, problem.names)
-        mc = sobol_monte_carlo(problem, lambda x: total_model(x)[:, 0], n, seed=rng, conf=s.confidence)
-        inputs = [InputRank(name, float(mc.first[i]), float(mc.total[i]), tuple(mc.first_ci[i]),
-                            tuple(mc.total_ci[i]), *swings[i], problem.marginals[i].discrete)
-                  for i, name in enumerate(problem.names)]
-        breakdown["Sobol design"] = mc.calls
-        return Ranking(scenario, problem, s, "mc", mc.calls, breakdown,
-                       sorted(inputs, key=lambda r: -r.total), [], {}, risk, risk_events, warnings=warnings,
-                       form_importance=form_importance, form_beta=form_beta)
+        return _rank_monte_carlo(scenario, problem, s, rng, swings, breakdown, common)
+    return _rank_chaos(scenario, problem, s, rng, swings, breakdown, common)
 
-    disc, cont, cont_problem = _split(problem)
+
+def _rank_monte_carlo(scenario: Scenario, problem: Problem, s: RankSettings, rng: np.random.Generator,
+                      swings: list[tuple[float, float, float, float]], breakdown: dict[str, int],
+                      common: dict) -> Ranking:
+    """Sobol indices of the total distance by the pick-freeze estimators on the real solver."""
+    d = problem.dimension
+    n = max((s.calls or 8192 * (d + 2)) // (d + 2), 64)
+    total_model = _matrix_model(scenario, problem.names)
+    mc = sobol_monte_carlo(problem, lambda x: total_model(x)[:, 0], n, seed=rng, conf=s.confidence)
+    inputs = [InputRank(name, float(mc.first[i]), float(mc.total[i]),
+                        (float(mc.first_ci[i, 0]), float(mc.first_ci[i, 1])),
+                        (float(mc.total_ci[i, 0]), float(mc.total_ci[i, 1])), *swings[i],
+                        problem.marginals[i].discrete)
+              for i, name in enumerate(problem.names)]
+    breakdown["Sobol design"] = mc.calls
+    return Ranking(scenario, problem, s, "mc", mc.calls, breakdown, sorted(inputs, key=lambda r: -r.total),
+                   [], {}, **common)
+
+
+@dataclass
+class _Fits:
+    """The surrogate of every branch, with what was used to fit and validate it."""
+
+    space: ChaosSpace
+    branches: list[Branch]
+    order_of: list[int]  # branch indices, most probable first
+    fits: dict[int, ChaosFit]
+    models: dict[int, Callable[[Array], Array]]
+    holdout: dict[int, tuple[Array, Array]]  # (true, predicted) total distances
+    per_branch: int
+    n_train: int
+    n_hold: int
+
+    @property
+    def first(self) -> ChaosFit:
+        return self.fits[self.order_of[0]]
+
+
+def _fit_branches(scenario: Scenario, problem: Problem, s: RankSettings,
+                  rng: np.random.Generator) -> tuple[_Fits, list[int], Problem]:
+    """One chaos expansion per discrete branch on a shared basis, chosen on the most probable branch."""
+    disc, cont, cont_problem = split_discrete(problem)
     if not cont:
         raise LandriskError("`rank --method pce` needs at least one continuous uncertain input")
     space = ChaosSpace(cont_problem)
-    branches = _branches(problem, disc)
+    branches = discrete_branches(problem, disc)
     calls = s.calls or 1000
     per_branch = calls // len(branches)
     n_hold = max(10, round(s.holdout_fraction * per_branch))
@@ -211,103 +309,140 @@ def rank(
     if n_train < 2 * (cont_problem.dimension + 1):
         raise LandriskError(f"--calls {calls} is too few: each of the {len(branches)} branches needs at "
                             f"least {2 * (cont_problem.dimension + 1) + n_hold} calls")
-    order_of = sorted(range(len(branches)), key=lambda b: -branches[b][1])
-    fits: dict[int, Any] = {}
-    hold: dict[int, tuple[NDArray, NDArray]] = {}
+    order_of = sorted(range(len(branches)), key=lambda b: -branches[b].probability)
+    fits: dict[int, ChaosFit] = {}
+    hold: dict[int, tuple[Array, Array]] = {}
     models = {}
     seeds = rng.spawn(len(branches))
     for b in order_of:  # the most probable branch first: it chooses the basis for all
-        values, _ = branches[b]
-        models[b] = _model(scenario.with_values(**values) if values else scenario, cont_problem.names)
+        values = branches[b].values
+        models[b] = _matrix_model(scenario.with_values(**values) if values else scenario, cont_problem.names)
         xi = space.design(per_branch, seeds[b])
         y = models[b](space.to_inputs(xi))
         basis = None if not fits else (fits[order_of[0]].order, fits[order_of[0]].q_norm)
         fits[b] = fit_chaos(space, xi[:n_train], y[:n_train], _OUTPUTS, max_order=s.max_order,
                             order=s.order, basis=basis)
         hold[b] = (y[n_train:, 0], fits[b].predict(xi[n_train:])[:, 0])
-    probs = np.array([p for _, p in branches])
-    names = list(cont_problem.names)
-    disc_name = " & ".join(problem.names[i] for i in disc) if disc else None
-    phase_idx = {}
-    for k, out in enumerate(_PHASES):
-        coefs = [fits[b].coefficients[:, k] for b in range(len(branches))]
-        si = sobol_indices(fits[order_of[0]].index, coefs, probs, names,
-                           disc_name if len(branches) > 1 else None)
-        phase_idx[out] = {n: (float(f), float(t))
-                          for n, f, t in zip(si.names, si.first, si.total, strict=True)}
-        if out == "total_m":
-            total_si = si
-    # Hold-out validation, pooled over the branches by probability.
-    mse = sum(p * np.mean((t - e) ** 2) for (t, e), p in zip((hold[b] for b in range(len(branches))), probs,
-                                                               strict=True))
-    rel_rms = float(np.sqrt(mse / total_si.variance)) if total_si.variance > 0 else 0.0
-    all_true = np.concatenate([hold[b][0] for b in hold])
-    all_err = np.concatenate([hold[b][1] - hold[b][0] for b in hold])
-    chaos = {"order": fits[order_of[0]].order, "q_norm": fits[order_of[0]].q_norm,
-             "terms": fits[order_of[0]].terms, "branches": len(branches), "training_calls": n_train,
-             "holdout_calls": n_hold, "loo_error": float(fits[order_of[0]].loo_error[0]),
-             "holdout_rel_error": rel_rms, "holdout_max_error_m": float(np.max(np.abs(all_err))),
-             "holdout_max_rel_error": float(np.max(np.abs(all_err) / np.abs(all_true)))}
-    breakdown["surrogate training and hold-out"] = per_branch * len(branches)
-    if rel_rms > s.max_holdout_error:
-        warnings.append(f"the surrogate's hold-out error ({100 * rel_rms:.1f} % of the sd) exceeds "
-                        f"{100 * s.max_holdout_error:g} %: its figures are not reliable; raise --calls or "
-                        "use --method mc")
+    fitted = _Fits(space, branches, order_of, fits, models, hold, per_branch, n_train, n_hold)
+    return fitted, disc, cont_problem
 
-    # Sample the surrogate; check its tail against the real solver.
-    counts = rng.multinomial(s.surrogate_samples, probs)
+
+def _phase_indices(f: _Fits, names: list[str], disc_name: str | None
+                   ) -> tuple[dict[str, dict[str, tuple[float, float]]], SobolIndices]:
+    """Sobol indices of every phase from the branch coefficients; those of the total distance."""
+    probs = np.array([b.probability for b in f.branches])
+    out = {}
+    total_si = None
+    for k, name in enumerate(_PHASES):
+        coefs = [f.fits[b].coefficients[:, k] for b in range(len(f.branches))]
+        si = sobol_indices(f.first.index, coefs, probs, names, disc_name if len(f.branches) > 1 else None)
+        out[name] = {n: (float(a), float(t)) for n, a, t in zip(si.names, si.first, si.total, strict=True)}
+        if name == "total_m":
+            total_si = si
+    assert total_si is not None
+    return out, total_si
+
+
+def _chaos_summary(f: _Fits, total_si: SobolIndices) -> ChaosSummary:
+    """Hold-out validation of the total distance, pooled over the branches by probability."""
+    probs = [b.probability for b in f.branches]
+    mse = sum(p * np.mean((t - e) ** 2) for (t, e), p in zip((f.holdout[b] for b in range(len(f.branches))),
+                                                               probs, strict=True))
+    rel_rms = float(np.sqrt(mse / total_si.variance)) if total_si.variance > 0 else 0.0
+    all_true = np.concatenate([f.holdout[b][0] for b in f.holdout])
+    all_err = np.concatenate([f.holdout[b][1] - f.holdout[b][0] for b in f.holdout])
+    first = f.first
+    return ChaosSummary(first.order, first.q_norm, first.terms, len(f.branches), f.n_train, f.n_hold,
+                        float(first.loo_error[0]), rel_rms, float(np.max(np.abs(all_err))),
+                        float(np.max(np.abs(all_err) / np.abs(all_true))))
+
+
+def _sample_surrogate(f: _Fits, s: RankSettings, rng: np.random.Generator
+                      ) -> tuple[Array, Array, Array]:
+    """Germ samples, surrogate predictions and branch labels, the branches drawn by probability."""
+    counts = rng.multinomial(s.surrogate_samples, np.array([b.probability for b in f.branches]))
     xis, preds, labels = [], [], []
     for b, m in enumerate(counts):
-        xi = space.random(int(m), rng)
+        xi = f.space.random(int(m), rng)
         xis.append(xi)
-        preds.append(fits[b].predict(xi))
+        preds.append(f.fits[b].predict(xi))
         labels.append(np.full(int(m), b))
-    xi_all, pred, lab = np.concatenate(xis), np.concatenate(preds), np.concatenate(labels)
+    return np.concatenate(xis), np.concatenate(preds), np.concatenate(labels)
+
+
+def _tail_check(f: _Fits, s: RankSettings, rng: np.random.Generator, xi_all: Array, pred: Array,
+                lab: Array, p99: float) -> TailCheck:
+    """The real solver on surrogate samples in the tail (above the surrogate's P99) and nearest the
+    runway end."""
     total, margin = pred[:, 0], pred[:, 4]
-    sorted_total = np.sort(total)
-    surrogate_pct = percentiles(sorted_total, SURROGATE_PERCENTILES, s.confidence, presorted=True)
-    p99 = next(p.value for p in surrogate_pct if p.p == 99.0)
     tail = np.flatnonzero(total >= p99)
     pick_tail = rng.choice(tail, size=min(s.tail_checks // 2, tail.size), replace=False)
     pick_edge = np.argsort(np.abs(margin))[: s.tail_checks - pick_tail.size]
     picks = np.unique(np.concatenate([pick_tail, pick_edge]))
     truth = np.empty((picks.size, len(_OUTPUTS)))
-    for b in range(len(branches)):
+    for b in range(len(f.branches)):
         sel = lab[picks] == b
         if sel.any():
-            truth[sel] = models[b](space.to_inputs(xi_all[picks[sel]]))
+            truth[sel] = f.models[b](f.space.to_inputs(xi_all[picks[sel]]))
     rel = (total[picks] - truth[:, 0]) / truth[:, 0]
     edge = np.isin(picks, pick_edge)
     wrong = int(np.sum((margin[picks] < 0) != (truth[:, 4] < 0)))
-    tail_rms = float(np.sqrt(np.mean(rel**2)))
-    tail_ok = tail_rms <= s.max_tail_error and wrong <= 0.1 * max(int(edge.sum()), 1)
-    chaos.update({"tail_check_calls": int(picks.size), "tail_rel_rms": tail_rms,
-                  "tail_max_rel": float(np.max(np.abs(rel))), "tail_bias_rel": float(np.mean(rel)),
-                  "near_runway_end": int(edge.sum()), "misclassified_overruns": wrong, "tail_ok": tail_ok})
-    chaos["reliable"] = bool(rel_rms <= s.max_holdout_error and tail_ok)
-    breakdown["tail check"] = int(picks.size)
-    if not tail_ok:
-        warnings.append(f"tail check failed: the surrogate is off by {100 * tail_rms:.1f} % (RMS) on "
-                        f"{picks.size} tail samples and misclassifies {wrong} near the runway end; its P99 "
-                        "and P(overrun) are not reliable (use landrisk assess)")
-    p_over: EventProbability = event_probability(int(np.sum(margin < 0)), total.size, s.confidence)
-    surrogate = {"samples": int(total.size), "mean_m": float(total_si.mean),
-                 "sd_m": float(np.sqrt(total_si.variance)), "percentiles": surrogate_pct, "p_overrun": p_over,
-                 "sorted_total_m": sorted_total}
+    rms = float(np.sqrt(np.mean(rel**2)))
+    passed = rms <= s.max_tail_error and wrong <= 0.1 * max(int(edge.sum()), 1)
+    return TailCheck(int(picks.size), rms, float(np.max(np.abs(rel))), float(np.mean(rel)), int(edge.sum()),
+                     wrong, bool(passed))
 
-    mc_check: dict[str, Any] = {}
+
+def _monte_carlo_check(scenario: Scenario, problem: Problem, s: RankSettings,
+                       surrogate: SurrogateSample) -> MonteCarloCheck:
+    """A Monte Carlo run of the real solver, and the surrogate's relative differences from it."""
+    a = assess(scenario, problem, AssessSettings(samples=s.mc_check, seed=s.seed, sampler="sobol"))
+    mc_pct = {p.p: p for p in a.percentiles["total_m"]}
+    sur_pct = {p.p: p for p in surrogate.percentiles}
+    mean, sd = a.moments["total_m"][0], a.moments["total_m"][1]
+    p50, p99 = mc_pct[50.0].value, mc_pct[99.0].value
+    assert p50 is not None and p99 is not None and sur_pct[50.0].value is not None
+    assert sur_pct[99.0].value is not None
+    rel = {"mean": surrogate.mean_m / mean - 1, "sd": surrogate.sd_m / sd - 1,
+           "p50": sur_pct[50.0].value / p50 - 1, "p99": sur_pct[99.0].value / p99 - 1}
+    return MonteCarloCheck(s.mc_check, mean, sd, p50, p99, a.p_overrun, a.sorted_total(), rel)
+
+
+def _rank_chaos(scenario: Scenario, problem: Problem, s: RankSettings, rng: np.random.Generator,
+                swings: list[tuple[float, float, float, float]], breakdown: dict[str, int],
+                common: dict) -> Ranking:
+    """Sobol indices of every phase from a polynomial-chaos surrogate per discrete branch."""
+    f, disc, cont_problem = _fit_branches(scenario, problem, s, rng)
+    names = list(cont_problem.names)
+    disc_name = " & ".join(problem.names[i] for i in disc) if disc else None
+    phase_idx, total_si = _phase_indices(f, names, disc_name)
+    chaos = _chaos_summary(f, total_si)
+    warnings = common["warnings"]
+    breakdown["surrogate training and hold-out"] = f.per_branch * len(f.branches)
+    if chaos.holdout_rel_error > s.max_holdout_error:
+        warnings.append(f"the surrogate's hold-out error ({100 * chaos.holdout_rel_error:.1f} % of the sd) "
+                        f"exceeds {100 * s.max_holdout_error:g} %: its figures are not reliable; raise "
+                        "--calls or use --method mc")
+
+    xi_all, pred, lab = _sample_surrogate(f, s, rng)
+    total, margin = pred[:, 0], pred[:, 4]
+    sorted_total = np.sort(total)
+    surrogate_pct = percentiles(sorted_total, SURROGATE_PERCENTILES, s.confidence, presorted=True)
+    p99 = next(p.value for p in surrogate_pct if p.p == 99.0)
+    assert p99 is not None
+    tail = _tail_check(f, s, rng, xi_all, pred, lab, p99)
+    breakdown["tail check"] = tail.calls
+    if not tail.passed:
+        warnings.append(f"tail check failed: the surrogate is off by {100 * tail.rel_rms:.1f} % (RMS) on "
+                        f"{tail.calls} tail samples and misclassifies {tail.misclassified_overruns} near the "
+                        "runway end; its P99 and P(overrun) are not reliable (use landrisk assess)")
+    surrogate = SurrogateSample(int(total.size), float(total_si.mean), float(np.sqrt(total_si.variance)),
+                                surrogate_pct,
+                                event_probability(int(np.sum(margin < 0)), total.size, s.confidence),
+                                sorted_total)
+    mc_check = None
     if s.mc_check > 0:
-        a = assess(scenario, problem, AssessSettings(samples=s.mc_check, seed=s.seed, sampler="sobol"))
-        mc_pct = {p.p: p for p in a.percentiles["total_m"]}
-        sur_pct = {p.p: p for p in surrogate_pct}
-        mc_check = {"samples": s.mc_check, "mean_m": a.moments["total_m"][0], "sd_m": a.moments["total_m"][1],
-                    "p50_m": mc_pct[50.0].value, "p99_m": mc_pct[99.0].value, "p_overrun": a.p_overrun,
-                    "sorted_total_m": a.sorted_total()}
-        mc_check["rel_diff"] = {
-            "mean": surrogate["mean_m"] / mc_check["mean_m"] - 1,
-            "sd": surrogate["sd_m"] / mc_check["sd_m"] - 1,
-            "p50": sur_pct[50.0].value / mc_check["p50_m"] - 1,
-            "p99": sur_pct[99.0].value / mc_check["p99_m"] - 1}
+        mc_check = _monte_carlo_check(scenario, problem, s, surrogate)
         breakdown["Monte Carlo check"] = s.mc_check
 
     by_name = dict(zip(problem.names, swings, strict=True))
@@ -317,55 +452,6 @@ def rank(
         sw = by_name[keys[0]] if len(keys) == 1 else (float("nan"),) * 4
         inputs.append(InputRank(n_, float(f1), float(ft), None, None, *sw, n_ not in names))
     second = sorted(((a, b, v) for (a, b), v in total_si.second.items()), key=lambda t: -t[2])[:3]
-    return Ranking(scenario, problem, s, "pce", per_branch * len(branches), breakdown,
-                   sorted(inputs, key=lambda r: -r.total), second, phase_idx, risk, risk_events, chaos,
-                   surrogate, mc_check, warnings, form_importance, form_beta)
-
-
-def ranking_record(r: Ranking) -> dict[str, Any]:
-    """JSON-ready figures of a ranking (no provenance; the caller adds it)."""
-
-    def pct(items: list[Percentile]) -> dict[str, Any]:
-        return {f"{p.p:g}": p.as_dict() for p in items}
-
-    out: dict[str, Any] = {
-        "method": r.method,
-        "calls": r.calls,
-        "calls_breakdown": r.calls_breakdown,
-        "seed": r.settings.seed,
-        "reliable": r.reliable,
-        "warnings": r.warnings,
-        "inputs": [{"name": i.name, "first_order": i.first, "total": i.total,
-                    "first_order_ci95": list(i.first_ci) if i.first_ci else None,
-                    "total_ci95": list(i.total_ci) if i.total_ci else None,
-                    "p5": None if i.discrete and np.isnan(i.p5) else i.p5,
-                    "p95": None if i.discrete and np.isnan(i.p95) else i.p95,
-                    "swing_total_m": None if np.isnan(i.swing_total_m) else i.swing_total_m,
-                    "swing_margin_m": None if np.isnan(i.swing_margin_m) else i.swing_margin_m,
-                    "discrete": i.discrete} for i in r.inputs],
-        "second_order": [{"pair": [a, b], "index": v} for a, b, v in r.second_order],
-        "phase_indices": {ph: {n: {"first_order": f, "total": t} for n, (f, t) in d.items()}
-                          for ph, d in r.phase_indices.items()},
-    }
-    if r.form_importance:
-        out["form_importance_alpha2"] = r.form_importance
-        out["form_beta"] = r.form_beta
-    if r.risk is not None:
-        out["overrun_indicator_indices"] = {
-            "events": r.risk_events, "samples": 2 * r.settings.risk_samples, "calls": r.risk.calls,
-            "inputs": [{"name": n, "first_order": float(f), "total": float(t), "first_order_ci95": list(fc),
-                        "total_ci95": list(tc)} for n, f, t, fc, tc in
-                       zip(r.risk.names, r.risk.first, r.risk.total, r.risk.first_ci.tolist(),
-                           r.risk.total_ci.tolist(), strict=True)]}
-    if r.method == "pce":
-        out.update({"order": r.chaos["order"], "q_norm": r.chaos["q_norm"],
-                    "holdout_rel_error": r.chaos["holdout_rel_error"], "chaos": r.chaos})
-        sur = r.surrogate
-        out["surrogate"] = {"samples": sur["samples"], "mean_m": sur["mean_m"], "sd_m": sur["sd_m"],
-                            "percentiles": pct(sur["percentiles"]), "p_overrun": sur["p_overrun"].as_dict()}
-        if r.mc_check:
-            m = r.mc_check
-            out["mc_check"] = {"samples": m["samples"], "mean_m": m["mean_m"], "sd_m": m["sd_m"],
-                               "p50_m": m["p50_m"], "p99_m": m["p99_m"],
-                               "p_overrun": m["p_overrun"].as_dict(), "rel_diff": m["rel_diff"]}
-    return out
+    return Ranking(scenario, problem, s, "pce", f.per_branch * len(f.branches), breakdown,
+                   sorted(inputs, key=lambda r: -r.total), second, phase_idx, chaos=chaos, tail=tail,
+                   surrogate=surrogate, mc_check=mc_check, **common)

@@ -51,9 +51,7 @@ class ChaosSpace:
         if any(m.discrete for m in problem.marginals):
             raise ValueError("a chaos space takes continuous inputs only; condition on discrete ones")
         self.problem = problem
-        correlated = set()
-        if problem.spearman is not None:
-            correlated = set(problem._correlated.tolist())
+        correlated = set(problem.correlated.tolist())
         self.kinds = tuple(
             "normal" if (m.family in _NORMAL_FAMILIES or j in correlated) else "uniform"
             for j, m in enumerate(problem.marginals)
@@ -88,10 +86,9 @@ class ChaosSpace:
         u = np.empty_like(xi)
         for j, k in enumerate(self.kinds):
             u[:, j] = special.ndtr(xi[:, j]) if k == "normal" else xi[:, j]
-        if self.problem.spearman is not None:
-            c = self.problem._correlated
-            chol = self.problem._cholesky[np.ix_(c, c)]
-            u[:, c] = special.ndtr(xi[:, c] @ chol.T)
+        c = self.problem.correlated
+        if c.size:  # the Gaussian copula acts on the (normal) germs of the correlated inputs
+            u[:, c] = special.ndtr(self.problem.correlate(xi)[:, c])
         u = np.clip(u, _EPS, 1 - _EPS)
         return np.column_stack([m.ppf(u[:, j]) for j, m in enumerate(self.problem.marginals)])
 

@@ -1,6 +1,7 @@
 """Marginal distributions of uncertain inputs, and the joint problem with a Gaussian copula.
 
-Continuous families are chaospy distributions; every marginal is sampled by its inverse transform
+Continuous families are chaospy distributions (built on first use, so that reading a scenario does not
+import chaospy); every marginal is sampled by its inverse transform
 x = F^-1(u), so that any uniform points (pseudo-random, scrambled Sobol, Halton, Latin hypercube) and any
 seed give reproducible samples. A continuous family may be truncated to [lower, upper], sampled as
 F^-1(F(a) + u (F(b) - F(a))). Discrete choices and empirical samples are small classes with the same
@@ -17,9 +18,9 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import Any
 
-import chaospy as cp
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 from scipy import special
@@ -60,15 +61,12 @@ class Marginal:
         The parameters as given (after unit conversion).
     lower, upper : float
         The support (after truncation); infinite where unbounded.
-    base : chaospy.Distribution or None
-        The untruncated continuous distribution (None for discrete and empirical).
     """
 
     family: str
     params: Mapping[str, Any]
     lower: float
     upper: float
-    base: Any = None
     _values: Array = field(default_factory=lambda: np.empty(0), repr=False)
     _cum: Array = field(default_factory=lambda: np.empty(0), repr=False)
 
@@ -84,10 +82,47 @@ class Marginal:
         return self._values, np.diff(np.concatenate([[0.0], self._cum]))
 
     @property
+    def continuous(self) -> bool:
+        """True for a continuous family (not a discrete choice or an empirical sample)."""
+        return self.family not in ("discrete", "empirical")
+
+    @cached_property
+    def base(self) -> Any:
+        """The untruncated continuous distribution as a chaospy object (None for discrete and
+        empirical inputs); chaospy is imported here, on first use."""
+        if not self.continuous:
+            return None
+        import chaospy as cp
+
+        p = self.params
+        if self.family in ("normal", "truncnormal"):
+            return cp.Normal(p["mean"], p["sd"])
+        if self.family == "lognormal":
+            return cp.LogNormal(*_lognormal_log_params(p))
+        if self.family == "uniform":
+            return cp.Uniform(p["lower"], p["upper"])
+        if self.family == "triangular":
+            return cp.Triangle(p["lower"], p["mode"], p["upper"])
+        if self.family == "beta":
+            return cp.Beta(p["alpha"], p["beta"], p["lower"], p["upper"])
+        return cp.Weibull(p["shape"], p["scale"], p.get("shift", 0.0))
+
+    @property
     def truncated(self) -> bool:
         """True where a continuous family is cut to [lower, upper]."""
-        return self.base is not None and ("lower" in self.params or "upper" in self.params) and \
+        return self.continuous and ("lower" in self.params or "upper" in self.params) and \
             self.family not in ("uniform", "triangular", "beta")
+
+    def from_standard_normal(self, z: ArrayLike) -> Array:
+        """x = F^-1(Phi(z)) for standard normal z: directly for untruncated normal and lognormal
+        inputs (no detour through the uniform, which loses the far tail), by the inverse otherwise."""
+        z = np.asarray(z, dtype=float)
+        if self.family == "normal" and not self.truncated:
+            return self.params["mean"] + self.params["sd"] * z
+        if self.family == "lognormal" and not self.truncated:
+            mu, sd = self._log_params
+            return np.exp(mu + sd * z)
+        return self.ppf(np.clip(special.ndtr(z), 2.0**-1074, 1.0 - 2.0**-53))
 
     def ppf(self, u: ArrayLike) -> Array:
         """Inverse distribution function x = F^-1(u) for u in (0, 1)."""
@@ -222,7 +257,7 @@ def make_marginal(family: str, params: Mapping[str, Any]) -> Marginal:
 
     if family in ("normal", "truncnormal"):
         _positive(p, "sd")
-        return Marginal(family, p, lo, hi, cp.Normal(p["mean"], p["sd"]))
+        return Marginal(family, p, lo, hi)
     if family == "lognormal":
         if "median" in p and "sigma_log" in p and not {"mean", "sd"} & set(p):
             _positive(p, "median", "sigma_log")
@@ -230,21 +265,20 @@ def make_marginal(family: str, params: Mapping[str, Any]) -> Marginal:
             _positive(p, "mean", "sd")
         else:
             raise ValueError("lognormal needs either median and sigma_log, or mean and sd")
-        mu, s = _lognormal_log_params(p)
-        return Marginal(family, p, max(lo, 0.0), hi, cp.LogNormal(mu, s))
+        return Marginal(family, p, max(lo, 0.0), hi)
     if family == "uniform":
-        return Marginal(family, p, lo, hi, cp.Uniform(lo, hi))
+        return Marginal(family, p, lo, hi)
     if family == "triangular":
         if not lo <= p["mode"] <= hi:
             raise ValueError(f"mode ({p['mode']:g}) must lie between lower and upper")
-        return Marginal(family, p, lo, hi, cp.Triangle(lo, p["mode"], hi))
+        return Marginal(family, p, lo, hi)
     if family == "beta":
         _positive(p, "alpha", "beta")
-        return Marginal(family, p, lo, hi, cp.Beta(p["alpha"], p["beta"], lo, hi))
+        return Marginal(family, p, lo, hi)
     if family == "weibull":
         _positive(p, "shape", "scale")
         shift = p.get("shift", 0.0)
-        return Marginal(family, p, max(lo, shift), hi, cp.Weibull(p["shape"], p["scale"], shift))
+        return Marginal(family, p, max(lo, shift), hi)
     if family == "discrete":
         return _discrete(p)
     return _empirical(p)
@@ -264,14 +298,14 @@ def _discrete(p: dict[str, Any]) -> Marginal:
     cum = np.cumsum(probs)
     cum[-1] = 1.0
     return Marginal("discrete", p, float(values[probs > 0].min()), float(values[probs > 0].max()),
-                    None, values, cum)
+                    values, cum)
 
 
 def _empirical(p: dict[str, Any]) -> Marginal:
     data = np.sort(np.asarray(p["data"], dtype=float))
     if data.ndim != 1 or data.size < 2 or not np.all(np.isfinite(data)):
         raise ValueError("empirical data must hold at least two finite numbers")
-    return Marginal("empirical", p, float(data[0]), float(data[-1]), None, data)
+    return Marginal("empirical", p, float(data[0]), float(data[-1]), data)
 
 
 def normal_correlation_from_spearman(spearman: ArrayLike) -> Array:
@@ -318,7 +352,10 @@ class Problem:
             object.__setattr__(self, "_cholesky", chol)
 
     @property
-    def _correlated(self) -> NDArray[np.intp]:
+    def correlated(self) -> NDArray[np.intp]:
+        """Indices of the inputs that take part in a correlation (empty without one)."""
+        if self.spearman is None:
+            return np.empty(0, dtype=np.intp)
         r = np.asarray(self.spearman)
         return np.flatnonzero(np.any((r != 0) & ~np.eye(len(r), dtype=bool), axis=1))
 
@@ -327,16 +364,49 @@ class Problem:
         """Number of uncertain inputs."""
         return len(self.names)
 
+    def correlate(self, z: ArrayLike) -> Array:
+        """The Gaussian copula in normal space: independent standard normals z[n, d] -> normals with the
+        copula's correlation (z L^T on the correlated inputs; the others unchanged).
+
+        The product is summed column by column in a fixed order, so that a sample's value does not
+        depend on how many samples are transformed with it (a matrix product may change its summation
+        order with the matrix size).
+        """
+        z = np.asarray(z, dtype=float)
+        if self._cholesky is None:
+            return z
+        c = self.correlated
+        chol = self._cholesky[np.ix_(c, c)]
+        out = z.copy()
+        zc = z[:, c]
+        for i_local, i in enumerate(c):
+            acc = zc[:, 0] * chol[i_local, 0]
+            for j in range(1, i_local + 1):  # lower triangular
+                acc = acc + zc[:, j] * chol[i_local, j]
+            out[:, i] = acc
+        return out
+
     def transform(self, u: ArrayLike) -> Array:
         """Map uniform points u[n, d] in (0, 1)^d to input values x[n, d] (copula, then marginals)."""
         u = np.asarray(u, dtype=float)
+        if u.size == 0:
+            return np.empty((0, self.dimension))
         if self._cholesky is not None:
             # Only the inputs that take part in a correlation go through the normal space.
-            c = self._correlated
+            c = self.correlated
             u = u.copy()
-            u[:, c] = special.ndtr(special.ndtri(u[:, c]) @ self._cholesky[np.ix_(c, c)].T)
-        return np.column_stack([m.ppf(u[:, j]) for j, m in enumerate(self.marginals)]) if u.size else \
-            np.empty((0, self.dimension))
+            z = np.zeros_like(u)
+            z[:, c] = special.ndtri(u[:, c])
+            u[:, c] = special.ndtr(self.correlate(z)[:, c])
+        return np.column_stack([m.ppf(u[:, j]) for j, m in enumerate(self.marginals)])
+
+    def from_standard_normal(self, z: ArrayLike) -> Array:
+        """Map independent standard normals z[n, d] to input values x[n, d]: the copula in normal space,
+        then each marginal from its normal (the rare-event methods work in this space)."""
+        z = self.correlate(np.atleast_2d(np.asarray(z, dtype=float)))
+        if z.size == 0:
+            return np.empty((0, self.dimension))
+        return np.column_stack([m.from_standard_normal(z[:, j]) for j, m in enumerate(self.marginals)])
 
     @classmethod
     def independent(cls, names: Sequence[str], marginals: Sequence[Marginal]) -> Problem:
