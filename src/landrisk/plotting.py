@@ -170,14 +170,15 @@ def tornado_figure(r: Ranking) -> Figure:
     rows = sorted((i for i in r.inputs if np.isfinite(i.swing_total_m)), key=lambda i: -abs(i.swing_total_m))
     fig, axes = plt.subplots(1, 2, figsize=(10, 0.5 * len(rows) + 2.4), sharey=True)
     y = np.arange(len(rows))
-    for ax, attr, label in ((axes[0], "swing_total_m", "change of the total distance [m]"),
-                            (axes[1], "swing_margin_m", "change of the margin to the LDA [m]")):
+    for ax, attr, axis_label in ((axes[0], "swing_total_m", "change of the total distance [m]"),
+                                 (axes[1], "swing_margin_m", "change of the margin to the LDA [m]")):
         vals = [getattr(i, attr) for i in rows]
         ax.barh(y, vals, color=["tab:red" if v > 0 else "tab:blue" for v in vals] if attr == "swing_total_m"
                 else ["tab:blue" if v > 0 else "tab:red" for v in vals])
         ax.axvline(0, color="black", lw=1)
-        ax.set_xlabel(label, fontsize=8)
+        ax.set_xlabel(axis_label, fontsize=8)
         ax.grid(True, axis="x", alpha=0.3)
+
     def label(i: Any) -> str:
         unit = KEYS[i.name].unit.replace("**", "^") if i.name in KEYS else ""
         return f"{i.name}\n{i.p5:.4g} to {i.p95:.4g} {unit}".rstrip()

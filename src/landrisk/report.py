@@ -122,7 +122,7 @@ def render_assess(a: Assessment, written: list[str] | None = None) -> str:
         f"  {'standard deviation':<44}{sd:9.1f} {convert(sd, 'm', 'ft'):10.0f}",
     ]
     for p in a.percentiles["total_m"]:
-        if p.supported:
+        if p.value is not None and p.lo is not None and p.hi is not None:
             lines.append(f"  {_pct_label(p.p):<44}{p.value:9.1f} {convert(p.value, 'm', 'ft'):10.0f}   "
                          f"[{p.lo:.1f}, {p.hi:.1f}]")
         else:
@@ -139,9 +139,9 @@ def render_assess(a: Assessment, written: list[str] | None = None) -> str:
         f"  P(overrun)                        {a.p_overrun.text()}",
         f"  P(beyond a {a.resa_length_m:.0f} m safety area)   {a.p_beyond_resa.text()}",
     ]
-    if a.overrun_speed_max is not None:
+    if a.overrun_speed_max is not None and a.overrun_speed_min is not None:
         shown = [f"{'median' if p.p == 50 else _pct_label(p.p)} {convert(p.value, 'm/s', 'kt'):.0f} kt"
-                 for p in a.overrun_speed if p.supported]
+                 for p in a.overrun_speed if p.value is not None]
         lo, hi = (convert(v, "m/s", "kt") for v in (a.overrun_speed_min, a.overrun_speed_max))
         lines.append("  ground speed of the overruns at the runway end: " + ", ".join(
             [*shown, f"range {lo:.0f} to {hi:.0f} kt"]))

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, fields
+from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -107,7 +108,7 @@ def case_from_values(values: Mapping[str, ArrayLike | None], g: float = STANDARD
         friction from the runway condition code table when a code is given, the slope angle
         arctan(slope / 100), and a flare speed ratio defaulting to the mean of approach and touchdown.
     """
-    v = values
+    v: Mapping[str, Any] = values
     temperature = v.get("conditions.temperature")
     deviation = v.get("conditions.isa_deviation")
     density = isa_density(

@@ -104,8 +104,8 @@ def discrete_branches(problem: Problem, disc: list[int]) -> list[Branch]:
     """Every combination of the discrete inputs' values with its probability (independent inputs)."""
     choices = []
     for i in disc:
-        values, probs = problem.marginals[i].choices()
-        choices.append([(problem.names[i], float(v), float(p)) for v, p in zip(values, probs, strict=True)
+        levels, probs = problem.marginals[i].choices()
+        choices.append([(problem.names[i], float(v), float(p)) for v, p in zip(levels, probs, strict=True)
                         if p > 0])
     out = []
     for combo in itertools.product(*choices) if choices else [()]:

@@ -330,7 +330,7 @@ def _fit_branches(scenario: Scenario, problem: Problem, s: RankSettings,
 def _phase_indices(f: _Fits, names: list[str], disc_name: str | None
                    ) -> tuple[dict[str, dict[str, tuple[float, float]]], SobolIndices]:
     """Sobol indices of every phase from the branch coefficients; those of the total distance."""
-    probs = np.array([b.probability for b in f.branches])
+    probs = [b.probability for b in f.branches]
     out = {}
     total_si = None
     for k, name in enumerate(_PHASES):

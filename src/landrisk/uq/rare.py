@@ -111,7 +111,7 @@ def _hlrf(g: _Counter, u0: Array, tol: float, max_iter: int, h: float) -> Design
             break
         target = (grad @ u - gu) / norm**2 * grad  # the HL-RF point
         step = target - u
-        c = 2.0 * np.linalg.norm(u) / norm + 10.0  # merit weight (Zhang & Der Kiureghian 1995)
+        c = float(2.0 * np.linalg.norm(u) / norm + 10.0)  # merit weight (Zhang & Der Kiureghian 1995)
 
         def merit(v: Array, gv: float, c: float = c) -> float:
             return 0.5 * float(v @ v) + c * abs(gv)
@@ -302,8 +302,9 @@ def _subset_run(
         gamma = _correlation_factor(chain_y <= max(nxt, 0.0), max(float(np.mean(y <= max(nxt, 0.0))), 1e-12))
     cov = math.sqrt(delta2) if math.isfinite(delta2) else math.inf
     z = stats.norm.ppf(0.5 + conf / 2)
-    s = math.sqrt(math.log1p(cov**2)) if math.isfinite(cov) else math.inf
-    ci = (prob * math.exp(-z * s), prob * math.exp(z * s)) if math.isfinite(s) and prob > 0 else (0.0, 1.0)
+    s_log = math.sqrt(math.log1p(cov**2)) if math.isfinite(cov) else math.inf
+    ci = ((prob * math.exp(-z * s_log), prob * math.exp(z * s_log)) if math.isfinite(s_log) and prob > 0
+          else (0.0, 1.0))
     return RareEstimate("subset", prob, cov, ci, gc.calls, prob > 0 and math.isfinite(cov),
                         "" if prob > 0 else "no failure sample at the last level")
 
