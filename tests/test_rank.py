@@ -46,6 +46,7 @@ def test_ishigami_by_monte_carlo_within_the_bootstrap_interval() -> None:
     assert mc.variance == pytest.approx(13.845, rel=0.03)  # analytic variance (Saltelli et al. 2008)
 
 
+@pytest.mark.slow
 def test_sobol_g_function_by_chaos_with_500_calls() -> None:
     # Saltelli & Sobol' 1995 (Reliab. Eng. Syst. Saf. 50:225): V_i = 1/(3(1 + a_i)^2),
     # S_i = V_i / (prod(1 + V_j) - 1), ST_i = V_i prod_{j != i}(1 + V_j) / (prod(1 + V_j) - 1).
@@ -80,6 +81,7 @@ def demo_ranking():
     return api.rank(scenario, uncertain, calls=1000, seed=1, mc_check=0), scenario, uncertain
 
 
+@pytest.mark.slow
 def test_demo_surrogate_matches_a_million_sample_monte_carlo(demo_ranking) -> None:
     r, scenario, uncertain = demo_ranking
     mc = api.assess(scenario, uncertain, samples=1_000_000, seed=11)
@@ -92,6 +94,7 @@ def test_demo_surrogate_matches_a_million_sample_monte_carlo(demo_ranking) -> No
     assert r.calls <= 1000
 
 
+@pytest.mark.slow
 def test_demo_indices_agree_with_salib(demo_ranking) -> None:
     # SALib (test-only reference): Saltelli sampling and Sobol analysis on the real solver, in the same
     # independent uniform variables (the copula's Cholesky order) as the chaos germs.
@@ -113,6 +116,7 @@ def test_demo_indices_agree_with_salib(demo_ranking) -> None:
         assert ours[name].total == pytest.approx(ref["ST"][k], abs=0.03), name
 
 
+@pytest.mark.slow
 def test_indices_are_consistent(demo_ranking) -> None:
     r, _, _ = demo_ranking
     assert sum(r.form_importance.values()) == pytest.approx(1.0, abs=1e-6)  # alpha is a unit vector

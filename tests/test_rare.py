@@ -60,7 +60,9 @@ def test_interval_coverage_over_many_seeds() -> None:
     for s in range(100):
         est = subset_simulation(g, 2, n=500, seed=1000 + s)
         hits_ss += est.ci[0] <= EXACT <= est.ci[1]
-    assert hits_is >= 93 and hits_ss >= 93
+    # With a true coverage of at least 95 %, hits are binomial(100, 0.95) or better: P(hits < 85) = 3.7e-5
+    # (scipy.stats.binom), so a correct method fails each count under 1 in 10^4 runs of this test.
+    assert hits_is >= 85 and hits_ss >= 85
 
 
 def four_branch(u):
@@ -94,6 +96,7 @@ def short_runway():
     return scenario, uncertain, mc
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("method", ["importance", "subset", "form"])
 def test_demo_methods_agree_with_a_million_sample_monte_carlo(short_runway, method) -> None:
     scenario, uncertain, mc = short_runway
