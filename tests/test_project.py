@@ -38,3 +38,21 @@ def test_readme_documents_every_key_and_ci_runs_its_test_command() -> None:
     test_command = next(line for line in readme.splitlines() if "pytest" in line and "pip install" in line)
     assert test_command.strip() in (ROOT / ".ci" / "run").read_text(encoding="utf-8")
     assert "not an operational or certified performance source" in readme
+
+
+def _imported_modules(*args: str) -> set[str]:
+    """The modules a fresh interpreter imports to run ``landrisk ARGS`` (from ``python -X importtime``)."""
+    out = subprocess.run([sys.executable, "-X", "importtime", "-m", "landrisk.cli", *args],
+                         capture_output=True, text=True, check=False, cwd=ROOT)
+    assert out.returncode == 0, out.stderr[-2000:]
+    lines = [line for line in out.stderr.splitlines() if line.startswith("import time:")]
+    return {line.rsplit("|", 1)[1].strip() for line in lines}
+
+
+@pytest.mark.parametrize("args", [("solve", "--json"), ("--help",)])
+def test_commands_import_only_what_they_use(args) -> None:
+    # `solve` uses no polynomial chaos, figures or tables: importing chaospy alone costs more than a
+    # second, so it and matplotlib, pandas and scipy.stats stay out of its import graph.
+    modules = _imported_modules(*args)
+    for heavy in ("chaospy", "matplotlib", "pandas", "scipy.stats"):
+        assert heavy not in modules, heavy

@@ -41,20 +41,11 @@ from landrisk.io import load_study as _load_study
 from landrisk.io.config import demo_text
 from landrisk.io.output import write_text_new
 from landrisk.model import Scenario, SingleLanding, solve_landings, solve_one
-from landrisk.studies import (
-    Assessment,
-    AssessSettings,
-    Ranking,
-    RankSettings,
-    RareAssessment,
-    RareSettings,
-)
-from landrisk.studies import assess as _assess
-from landrisk.studies import rank as _rank
-from landrisk.studies import rare_assess as _rare_assess
 
 if TYPE_CHECKING:
     import pandas as pd
+
+    from landrisk.studies import Assessment, AssessSettings, Ranking, RareAssessment
 
 __all__ = [
     "AssessSettings",
@@ -165,10 +156,12 @@ def assess(
     Returns the :class:`landrisk.studies.Assessment`; see :func:`percentile_table`,
     :func:`samples_table` and :func:`assessment_record` for pandas and JSON views of it.
     """
+    from landrisk.studies.assess import AssessSettings, assess
+
     _warn_fixed(uncertain)
     settings = AssessSettings(samples=samples, seed=seed, sampler=sampler, chunk=chunk,
                               keep_samples=keep_samples)
-    return _assess(scenario, uncertain.problem(), settings, progress=progress, record=uncertain.record())
+    return assess(scenario, uncertain.problem(), settings, progress=progress, record=uncertain.record())
 
 
 def rank(
@@ -182,9 +175,12 @@ def rank(
     mc_check: int = 100_000,
 ) -> Ranking:
     """Rank the uncertain inputs by Sobol indices (polynomial chaos or Monte Carlo); see studies.rank."""
+    from landrisk.studies.rank import RankSettings
+    from landrisk.studies.rank import rank as rank_inputs
+
     _warn_fixed(uncertain)
     settings = RankSettings(method=method, calls=calls, order=order, seed=seed, mc_check=mc_check)
-    return _rank(scenario, uncertain.problem(), settings)
+    return rank_inputs(scenario, uncertain.problem(), settings)
 
 
 def rare(
@@ -202,6 +198,17 @@ def rare(
     ``options`` are further fields of :class:`landrisk.studies.RareSettings` (``max_calls``,
     ``subset_samples``, ...).
     """
+    from landrisk.studies.rare import RareSettings, rare_assess
+
     _warn_fixed(uncertain)
     settings = RareSettings(method=method, seed=seed, target_cov=target_cov, risk_curve=risk_curve, **options)
-    return _rare_assess(scenario, uncertain.problem(), settings)
+    return rare_assess(scenario, uncertain.problem(), settings)
+
+
+def __getattr__(name: str) -> Any:
+    # The result and settings classes, re-exported without importing every study up front.
+    if name in ("AssessSettings", "Assessment"):
+        import landrisk.studies.assess as module
+
+        return getattr(module, name)
+    raise AttributeError(f"module 'landrisk.api' has no attribute {name!r}")

@@ -2,12 +2,16 @@
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import numpy as np
 
 from landrisk import CAUTION, __version__
 from landrisk.model import SingleLanding
-from landrisk.studies import Assessment, Ranking, RareAssessment
 from landrisk.units import convert
+
+if TYPE_CHECKING:  # imported with the results themselves, not by printing a landing
+    from landrisk.studies import Assessment, Ranking, RareAssessment
 
 __all__ = ["render_assess", "render_rank", "render_rare", "render_solve"]
 

@@ -7,15 +7,17 @@ so that a file written from it can be traced back to what produced it.
 
 from __future__ import annotations
 
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from landrisk import CAUTION, __version__
 from landrisk.model import KEYS, Scenario, SingleLanding
-from landrisk.studies import PHASES, Assessment, Ranking, RareAssessment
 from landrisk.units import convert
-from landrisk.uq import Percentile
+
+if TYPE_CHECKING:  # the studies are imported with their results, not by reading this module
+    from landrisk.studies import Assessment, Ranking, RareAssessment
+    from landrisk.uq import Percentile
 
 __all__ = [
     "assessment_record",
@@ -76,6 +78,8 @@ def _pct(items: list[Percentile]) -> dict[str, Any]:
 
 def summary_record(a: Assessment) -> dict[str, Any]:
     """The figures of an assessment, JSON-ready (no provenance; :func:`assessment_record` adds it)."""
+    from landrisk.studies.assess import PHASES
+
     tot = a.percentiles["total_m"]
     return {
         "samples": a.n,

@@ -9,10 +9,11 @@ import numpy as np
 from numpy.typing import ArrayLike
 
 from landrisk.model import LandingResult
-from landrisk.studies import PHASES, Assessment, Ranking, RareAssessment
 
 if TYPE_CHECKING:
     import pandas as pd
+
+    from landrisk.studies import Assessment, Ranking, RareAssessment
 
 __all__ = ["landings_table", "percentile_table", "rank_table", "risk_curve_table", "samples_table"]
 
@@ -30,6 +31,8 @@ def landings_table(values: Mapping[str, ArrayLike], result: LandingResult) -> pd
 def percentile_table(a: Assessment) -> pd.DataFrame:
     """Percentiles of every phase with their intervals: one row per (phase, percentile)."""
     import pandas as pd
+
+    from landrisk.studies.assess import PHASES
 
     rows = []
     for name, label in PHASES.items():

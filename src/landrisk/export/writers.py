@@ -16,10 +16,11 @@ from typing import TYPE_CHECKING, Any
 from landrisk.export.records import assessment_record, ranking_record, rare_record
 from landrisk.export.tables import percentile_table, rank_table, risk_curve_table, samples_table
 from landrisk.io.output import comment_header, write_files
-from landrisk.studies import Assessment, Ranking, RareAssessment
 
 if TYPE_CHECKING:
     import pandas as pd
+
+    from landrisk.studies import Assessment, Ranking, RareAssessment
 
 __all__ = ["write_assessment", "write_ranking", "write_rare", "write_result_set"]
 

@@ -1,18 +1,37 @@
 """Studies that join the landing model and the uncertainty machinery. They compute; they neither
-format nor write (records, tables and files are :mod:`landrisk.export`'s)."""
+format nor write (records, tables and files are :mod:`landrisk.export`'s).
 
-from landrisk.studies.assess import (
-    COMPARISON_FACTORS,
-    PERCENTILES,
-    PHASES,
-    Assessment,
-    AssessSettings,
-    ComparisonLine,
-    assess,
-)
-from landrisk.studies.binding import OUTPUTS, Branch, landing_model, limit_state
-from landrisk.studies.rank import InputRank, Ranking, RankSettings, rank
-from landrisk.studies.rare import RARE_METHODS, RareAssessment, RareSettings, rare_assess
+Each study module is imported on first use of one of its names, so that a command imports only the
+methods it runs (``rank`` brings in chaospy, ``solve`` none of them).
+"""
+
+from __future__ import annotations
+
+import importlib
+from typing import TYPE_CHECKING, Any
+
+if TYPE_CHECKING:
+    from landrisk.studies.assess import (
+        COMPARISON_FACTORS,
+        PERCENTILES,
+        PHASES,
+        Assessment,
+        AssessSettings,
+        ComparisonLine,
+        assess,
+    )
+    from landrisk.studies.binding import OUTPUTS, Branch, landing_model, limit_state
+    from landrisk.studies.rank import InputRank, Ranking, RankSettings, rank
+    from landrisk.studies.rare import RARE_METHODS, RareAssessment, RareSettings, rare_assess
+
+_WHERE = {
+    "landrisk.studies.assess": ("COMPARISON_FACTORS", "PERCENTILES", "PHASES", "Assessment",
+                                "AssessSettings", "ComparisonLine", "assess"),
+    "landrisk.studies.binding": ("OUTPUTS", "Branch", "landing_model", "limit_state"),
+    "landrisk.studies.rank": ("InputRank", "Ranking", "RankSettings", "rank"),
+    "landrisk.studies.rare": ("RARE_METHODS", "RareAssessment", "RareSettings", "rare_assess"),
+}
+_MODULE_OF = {name: module for module, names in _WHERE.items() for name in names}
 
 __all__ = [
     "COMPARISON_FACTORS",
@@ -35,3 +54,16 @@ __all__ = [
     "rank",
     "rare_assess",
 ]
+
+
+def __getattr__(name: str) -> Any:
+    module = _MODULE_OF.get(name)
+    if module is None:
+        raise AttributeError(f"module 'landrisk.studies' has no attribute {name!r}")
+    value = getattr(importlib.import_module(module), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return __all__

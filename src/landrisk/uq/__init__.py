@@ -1,30 +1,49 @@
 """Generic uncertainty machinery: distributions, sampling, Monte Carlo and interval statistics.
 
 This layer knows only vectorised callables f(X[n, d]) -> {name: y[n]} and distributions; it imports
-nothing of landrisk's physics or model.
+nothing of landrisk's physics or model. Its modules are imported on first use of one of their names
+(``from landrisk.uq import fit_chaos`` imports chaospy; reading a scenario does not).
 """
 
-from landrisk.uq.chaos import ChaosFit, ChaosSpace, SobolIndices, fit_chaos, sobol_indices
-from landrisk.uq.distributions import (
-    FAMILIES,
-    Marginal,
-    Problem,
-    make_marginal,
-    normal_correlation_from_spearman,
-)
-from landrisk.uq.montecarlo import MonteCarloRun, run_monte_carlo, sample
-from landrisk.uq.sampling import SAMPLERS, normalize_seed, uniform_chunks
-from landrisk.uq.sensitivity import MonteCarloSobol, sobol_monte_carlo
-from landrisk.uq.stats import (
-    EventProbability,
-    Percentile,
-    convergence,
-    event_probability,
-    exceedance_curve,
-    mean_interval,
-    percentiles,
-    wilson_interval,
-)
+from __future__ import annotations
+
+import importlib
+from typing import TYPE_CHECKING, Any
+
+if TYPE_CHECKING:
+    from landrisk.uq.chaos import ChaosFit, ChaosSpace, SobolIndices, fit_chaos, sobol_indices
+    from landrisk.uq.distributions import (
+        FAMILIES,
+        Marginal,
+        Problem,
+        make_marginal,
+        normal_correlation_from_spearman,
+    )
+    from landrisk.uq.montecarlo import MonteCarloRun, run_monte_carlo, sample
+    from landrisk.uq.sampling import SAMPLERS, normalize_seed, uniform_chunks
+    from landrisk.uq.sensitivity import MonteCarloSobol, sobol_monte_carlo
+    from landrisk.uq.stats import (
+        EventProbability,
+        Percentile,
+        convergence,
+        event_probability,
+        exceedance_curve,
+        mean_interval,
+        percentiles,
+        wilson_interval,
+    )
+
+_WHERE = {
+    "landrisk.uq.chaos": ("ChaosFit", "ChaosSpace", "SobolIndices", "fit_chaos", "sobol_indices"),
+    "landrisk.uq.distributions": ("FAMILIES", "Marginal", "Problem", "make_marginal",
+                                  "normal_correlation_from_spearman"),
+    "landrisk.uq.montecarlo": ("MonteCarloRun", "run_monte_carlo", "sample"),
+    "landrisk.uq.sampling": ("SAMPLERS", "normalize_seed", "uniform_chunks"),
+    "landrisk.uq.sensitivity": ("MonteCarloSobol", "sobol_monte_carlo"),
+    "landrisk.uq.stats": ("EventProbability", "Percentile", "convergence", "event_probability",
+                          "exceedance_curve", "mean_interval", "percentiles", "wilson_interval"),
+}
+_MODULE_OF = {name: module for module, names in _WHERE.items() for name in names}
 
 __all__ = [
     "FAMILIES",
@@ -54,3 +73,16 @@ __all__ = [
     "uniform_chunks",
     "wilson_interval",
 ]
+
+
+def __getattr__(name: str) -> Any:
+    module = _MODULE_OF.get(name)
+    if module is None:
+        raise AttributeError(f"module 'landrisk.uq' has no attribute {name!r}")
+    value = getattr(importlib.import_module(module), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return __all__
