@@ -9,8 +9,9 @@ from landrisk.physics import isa_density, isa_pressure, isa_pressure_altitude, i
 FT = 0.3048
 
 
-# ICAO Doc 7488 (1993) / U.S. Standard Atmosphere 1976, density at pressure altitude, as tabulated in
-# REFERENCES.md: 0 ft 1.22500, 2 000 ft 1.15490, 5 000 ft 1.05555, 8 000 ft 0.96287 kg/m^3.
+# ICAO, Manual of the ICAO Standard Atmosphere, Doc 7488, 3rd ed. 1993 (= U.S. Standard Atmosphere 1976
+# below 32 km), density at pressure altitude: 0 ft 1.22500, 2 000 ft 1.15490, 5 000 ft 1.05555,
+# 8 000 ft 0.96287 kg/m^3 (its density table; the ambiance package checks the same model below).
 @pytest.mark.parametrize(
     ("feet", "rho"), [(0, 1.22500), (2_000, 1.15490), (5_000, 1.05555), (8_000, 0.96287)]
 )
@@ -19,7 +20,8 @@ def test_density_matches_icao_table(feet: float, rho: float) -> None:
 
 
 def test_density_isa_plus_20_at_5000_ft() -> None:
-    # ICAO Doc 7488 pressure at 5 000 ft with the temperature raised 20 K: 0.98480 kg/m^3 (REFERENCES.md).
+    # ICAO Doc 7488 (1993) pressure at 5 000 ft with the temperature raised 20 K: rho = p / (R T) =
+    # 0.98480 kg/m^3 (the ideal-gas law on the tabulated pressure).
     assert isa_density(5_000 * FT, isa_deviation=20.0) == pytest.approx(0.98480, abs=6e-5)
 
 

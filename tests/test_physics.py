@@ -50,7 +50,8 @@ def test_flare_geometry_anderson_example_6_7() -> None:
 
 
 def test_flare_above_screen_height() -> None:
-    # Anderson eqs. 6.106-6.109 / REFERENCES.md: when h_f > h_screen the arc starts above the screen,
+    # Anderson, Aircraft Performance and Design (1999), eqs. 6.106-6.109 and the arc geometry: when
+    # h_f > h_screen the arc starts above the screen,
     # S = sqrt(R^2 - (R - h)^2) and there is no straight approach.
     r = float(flare_radius(80.0, 1.1))
     approach, flare = air_distance_flare(15.24, np.radians(8.0), 85.0, 80.0, 1.1)
@@ -71,7 +72,8 @@ def test_air_distance_with_wind_is_air_distance_minus_wind_times_time() -> None:
 
 
 def test_signed_aerodynamic_forces_reverse_with_the_airflow() -> None:
-    # DESIGN.md: forces use V|V| so that a tailwind at the end of the roll pushes the aircraft forward.
+    # Forces use V|V| so that air from behind (a tailwind at the end of the roll) pushes the aircraft
+    # forward: drag acts along the relative airflow (Anderson 1999, §2.9; sign convention of this model).
     args = (1.2, 100.0, 0.05, 0.04, 0.5, 0.3)
     assert drag_force(-10.0, *args) == -drag_force(10.0, *args)
     assert lift_force(-10.0, 1.2, 100.0, 0.5) < 0 < lift_force(10.0, 1.2, 100.0, 0.5)
