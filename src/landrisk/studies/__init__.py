@@ -7,8 +7,9 @@ methods it runs (``rank`` brings in chaospy, ``solve`` none of them).
 
 from __future__ import annotations
 
-import importlib
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING
+
+from landrisk._lazy import lazy_names
 
 if TYPE_CHECKING:
     from landrisk.studies.assess import (
@@ -31,8 +32,6 @@ _WHERE = {
     "landrisk.studies.rank": ("InputRank", "Ranking", "RankSettings", "rank"),
     "landrisk.studies.rare": ("RARE_METHODS", "RareAssessment", "RareSettings", "rare_assess"),
 }
-_MODULE_OF = {name: module for module, names in _WHERE.items() for name in names}
-
 __all__ = [
     "COMPARISON_FACTORS",
     "OUTPUTS",
@@ -56,14 +55,4 @@ __all__ = [
 ]
 
 
-def __getattr__(name: str) -> Any:
-    module = _MODULE_OF.get(name)
-    if module is None:
-        raise AttributeError(f"module 'landrisk.studies' has no attribute {name!r}")
-    value = getattr(importlib.import_module(module), name)
-    globals()[name] = value
-    return value
-
-
-def __dir__() -> list[str]:
-    return __all__
+__getattr__, __dir__ = lazy_names("landrisk.studies", _WHERE, globals())

@@ -7,8 +7,9 @@ nothing of landrisk's physics or model. Its modules are imported on first use of
 
 from __future__ import annotations
 
-import importlib
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING
+
+from landrisk._lazy import lazy_names
 
 if TYPE_CHECKING:
     from landrisk.uq.chaos import ChaosFit, ChaosSpace, SobolIndices, fit_chaos, sobol_indices
@@ -43,8 +44,6 @@ _WHERE = {
     "landrisk.uq.stats": ("EventProbability", "Percentile", "convergence", "event_probability",
                           "exceedance_curve", "mean_interval", "percentiles", "wilson_interval"),
 }
-_MODULE_OF = {name: module for module, names in _WHERE.items() for name in names}
-
 __all__ = [
     "FAMILIES",
     "SAMPLERS",
@@ -75,14 +74,4 @@ __all__ = [
 ]
 
 
-def __getattr__(name: str) -> Any:
-    module = _MODULE_OF.get(name)
-    if module is None:
-        raise AttributeError(f"module 'landrisk.uq' has no attribute {name!r}")
-    value = getattr(importlib.import_module(module), name)
-    globals()[name] = value
-    return value
-
-
-def __dir__() -> list[str]:
-    return __all__
+__getattr__, __dir__ = lazy_names("landrisk.uq", _WHERE, globals())
