@@ -36,8 +36,10 @@ from landrisk.export import (
     write_ranking,
     write_rare,
 )
+from landrisk.export.calibration import calibrated_scenario_text, calibration_record, write_calibration
 from landrisk.io import UncertainSet, load_scenario
 from landrisk.io import load_study as _load_study
+from landrisk.io.calibration import calibration_parameters, read_reference
 from landrisk.io.config import demo_text
 from landrisk.io.output import write_text_new
 from landrisk.model import Scenario, SingleLanding, solve_landings, solve_one
@@ -52,6 +54,8 @@ from landrisk.studies import (
 from landrisk.studies import assess as _assess
 from landrisk.studies import rank as _rank
 from landrisk.studies import rare_assess as _rare_assess
+from landrisk.studies.calibrate import Calibration, FitParameter
+from landrisk.studies.calibrate import calibrate as _calibrate
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -59,9 +63,13 @@ if TYPE_CHECKING:
 __all__ = [
     "AssessSettings",
     "Assessment",
+    "Calibration",
     "SingleLanding",
     "assess",
     "assessment_record",
+    "calibrate",
+    "calibrated_scenario_text",
+    "calibration_record",
     "load",
     "load_study",
     "percentile_table",
@@ -77,6 +85,7 @@ __all__ = [
     "solve_many",
     "solve_record",
     "write_assessment",
+    "write_calibration",
     "write_ranking",
     "write_rare",
     "write_starter",
@@ -205,3 +214,17 @@ def rare(
     _warn_fixed(uncertain)
     settings = RareSettings(method=method, seed=seed, target_cov=target_cov, risk_curve=risk_curve, **options)
     return _rare_assess(scenario, uncertain.problem(), settings)
+
+
+def calibrate(scenario: Scenario, reference: str | Path) -> Calibration:
+    """Fit the parameters of the scenario's ``[calibration]`` table to the reference CSV ``reference``.
+
+    See :mod:`landrisk.io.calibration` for the formats and :mod:`landrisk.studies.calibrate` for the
+    fit; :func:`calibration_record`, :func:`calibrated_scenario_text` and :func:`write_calibration`
+    give its JSON record, the calibrated scenario file and a results folder.
+    """
+    specs = calibration_parameters(scenario.text, scenario.source, scenario)
+    table = read_reference(reference)
+    params = [FitParameter(p.name, p.lower, p.upper, p.start, p.unit) for p in specs]
+    return _calibrate(scenario, params, table.columns, table.reference_m, table.tolerance_m,
+                      lines=table.lines, reference_source=table.source)

@@ -217,6 +217,38 @@ def rank(config: str | None, method: str, order: str, calls: int | None, seed: i
 
 
 @main.command(epilog=_HELP_CAUTION)
+@click.argument("config", type=click.Path(dir_okay=False))
+@click.argument("reference", type=click.Path(dir_okay=False))
+@_set_option
+@click.option("--out", "out_dir", type=click.Path(file_okay=False),
+              help="Write calibration.json, residuals.csv, calibrated.toml and the residual figure here.")
+@click.option("--uncertain", is_flag=True, help="In calibrated.toml, also add the fitted keys as "
+              "correlated normal uncertain inputs (the fit's covariance as a Gaussian copula).")
+@click.option("--force", is_flag=True, help="Replace existing output files.")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of the table.")
+@_reported
+def calibrate(config: str, reference: str, overrides: tuple[str, ...], out_dir: str | None, uncertain: bool,
+              force: bool, as_json: bool) -> None:
+    """Fit the parameters of CONFIG's [calibration] table to the reference distances in REFERENCE.csv.
+
+    REFERENCE.csv has one row per reference landing: headers name a scenario key and its unit in
+    brackets (aircraft.mass [lb], conditions.headwind [kt], runway.condition_code), the column
+    reference_distance [ft] the total distance from the screen height, and an optional tolerance [ft]
+    each row's standard uncertainty. Prints the fitted values with standard errors, their correlation,
+    the residuals and warnings where parameters are confounded.
+    """
+    from landrisk import api, report
+
+    result = api.calibrate(api.load(config, overrides), reference)
+    written = ([str(p) for p in api.write_calibration(result, out_dir, force=force, uncertain=uncertain)]
+               if out_dir else None)
+    if as_json:
+        click.echo(json.dumps(api.calibration_record(result), indent=2, default=str))
+    else:
+        click.echo(report.render_calibration(result, written))
+
+
+@main.command(epilog=_HELP_CAUTION)
 @click.argument("path", type=click.Path(dir_okay=False))
 @click.option("--force", is_flag=True, help="Replace the file if it exists.")
 @_reported

@@ -15,6 +15,7 @@ import numpy as np
 from landrisk import CAUTION, __version__
 from landrisk.model import KEYS
 from landrisk.studies import Assessment, Ranking, RareAssessment
+from landrisk.studies.calibrate import Calibration
 from landrisk.uq import exceedance_curve, wilson_interval
 
 if TYPE_CHECKING:
@@ -23,6 +24,7 @@ if TYPE_CHECKING:
 __all__ = [
     "FIGURES",
     "RANK_FIGURES",
+    "calibration_residuals_figure",
     "convergence_figure",
     "exceedance_figure",
     "figure_bytes",
@@ -252,4 +254,31 @@ def risk_curve_figure(r: RareAssessment) -> Figure:
     ax.legend(fontsize=7, loc="lower left")
     fig.subplots_adjust(bottom=0.2)
     _footer(fig, r.scenario, f"seed {r.settings.seed}")
+    return fig
+
+
+def calibration_residuals_figure(c: Calibration) -> Figure:
+    """Residual (model - reference) [m] of each reference row against each condition the table varies,
+    with the rows' tolerances as error bars; at the fitted values (dots) and at the start (crosses)."""
+    plt = _pyplot()
+    varied = [k for k, v in c.conditions.items() if np.unique(np.asarray(v)).size > 1] or list(c.conditions)
+    cols = max(1, min(3, len(varied)))
+    rows = max(1, -(-len(varied) // cols))
+    fig, axes = plt.subplots(rows, cols, figsize=(4.0 * cols, 3.2 * rows + 0.8), squeeze=False)
+    for ax, key in zip(axes.flat, varied, strict=False):
+        x = np.asarray(c.conditions[key], dtype=float)
+        ax.plot(x, c.start_model_m - c.reference_m, "x", color="grey", ms=4, label="at the start")
+        ax.errorbar(x, c.residual_m, yerr=c.sigma_m if c.sigma_from == "tolerance" else None, fmt="o", ms=3,
+                    capsize=2, label="fitted")
+        ax.axhline(0.0, color="black", lw=0.8)
+        unit = KEYS[key].unit if key in KEYS else ""
+        ax.set_xlabel(f"{key} [{unit}]" if unit else key, fontsize=8)
+        ax.set_ylabel("model - reference [m]", fontsize=8)
+        ax.grid(True, alpha=0.3)
+    for ax in list(axes.flat)[len(varied):]:
+        ax.set_visible(False)
+    axes.flat[0].legend(fontsize=7)
+    fig.suptitle(f"Calibration residuals: {c.scenario.name} against {c.reference_source}", fontsize=9)
+    fig.tight_layout(rect=(0, 0.08, 1, 0.96))
+    _footer(fig, c.scenario, f"{c.reference_m.size} reference rows, {c.solver_calls:,} solver calls")
     return fig

@@ -7,9 +7,10 @@ import numpy as np
 from landrisk import CAUTION, __version__
 from landrisk.model import SingleLanding
 from landrisk.studies import Assessment, Ranking, RareAssessment
+from landrisk.studies.calibrate import Calibration
 from landrisk.units import convert
 
-__all__ = ["render_assess", "render_rank", "render_rare", "render_solve"]
+__all__ = ["render_assess", "render_calibration", "render_rank", "render_rare", "render_solve"]
 
 
 def _m_ft(label: str, metres: float, note: str = "") -> str:
@@ -288,3 +289,31 @@ def _show(key: str, value: object) -> str:
     if unit == "m/s":
         return f"{convert(float(value), 'm/s', 'kt'):.1f} kt"
     return f"{value:.4g} {unit}".rstrip()
+
+
+def render_calibration(c: Calibration, written: list[str] | None = None) -> str:
+    """The fitted parameters with standard errors, their correlation, and the residuals."""
+    s = c.scenario
+    rms = float(np.sqrt(np.mean(c.residual_m**2)))
+    rms0 = float(np.sqrt(np.mean((c.start_model_m - c.reference_m) ** 2)))
+    lines = [
+        f"landrisk {__version__} - calibration against reference distances",
+        f"Scenario: {s.name} ({s.source}); reference: {c.reference_source} ({c.reference_m.size} rows)",
+        "Weighted least squares (scipy.optimize.least_squares), "
+        + ("weights 1/tolerance^2" if c.sigma_from == "tolerance" else "equal weights, covariance scaled by "
+           "the residual variance"),
+        "",
+        f"  {'parameter':<34}{'fitted':>12}{'std. error':>12}{'start':>12}   bounds",
+    ]
+    for p in c.parameters:
+        se = "-" if p.standard_error is None else f"{p.standard_error:.4g}"
+        lines.append(f"  {p.name:<34}{p.value:12.5g}{se:>12}{p.start:12.5g}   [{p.lower:g}, {p.upper:g}]"
+                     + (" AT BOUND" if p.at_bound else ""))
+    names = [p.name.rsplit(".", 1)[-1][:10] for p in c.parameters]
+    lines += ["", "Correlation of the estimates:", "  " + " " * 12 + "".join(f"{n:>11}" for n in names)]
+    for n, row in zip(names, c.correlation, strict=True):
+        lines.append(f"  {n:<12}" + "".join(f"{x:11.3f}" for x in row))
+    lines += ["", f"RMS residual {rms:.1f} m ({convert(rms, 'm', 'ft'):.0f} ft), at the start {rms0:.1f} m; "
+              f"residual sd {c.residual_sd:.3g} (in units of the tolerance); {c.solver_calls:,} solver calls",
+              f"Largest residual: {float(np.max(np.abs(c.residual_m))):.1f} m"]
+    return _closing(lines, list(c.warnings), written)
