@@ -37,10 +37,12 @@ from landrisk.export import (
     write_rare,
 )
 from landrisk.export.calibration import calibrated_scenario_text, calibration_record, write_calibration
+from landrisk.export.epistemic import epistemic_record, write_epistemic
 from landrisk.io import UncertainSet, load_scenario
 from landrisk.io import load_study as _load_study
 from landrisk.io.calibration import calibration_parameters, read_reference
 from landrisk.io.config import demo_text
+from landrisk.io.epistemic import epistemic_parameters
 from landrisk.io.output import write_text_new
 from landrisk.model import Scenario, SingleLanding, solve_landings, solve_one
 from landrisk.studies import (
@@ -56,6 +58,7 @@ from landrisk.studies import rank as _rank
 from landrisk.studies import rare_assess as _rare_assess
 from landrisk.studies.calibrate import Calibration, FitParameter
 from landrisk.studies.calibrate import calibrate as _calibrate
+from landrisk.studies.epistemic import EpistemicAssessment, EpistemicSettings, epistemic_assess
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -64,12 +67,15 @@ __all__ = [
     "AssessSettings",
     "Assessment",
     "Calibration",
+    "EpistemicAssessment",
     "SingleLanding",
     "assess",
     "assessment_record",
     "calibrate",
     "calibrated_scenario_text",
     "calibration_record",
+    "epistemic",
+    "epistemic_record",
     "load",
     "load_study",
     "percentile_table",
@@ -86,6 +92,7 @@ __all__ = [
     "solve_record",
     "write_assessment",
     "write_calibration",
+    "write_epistemic",
     "write_ranking",
     "write_rare",
     "write_starter",
@@ -228,3 +235,21 @@ def calibrate(scenario: Scenario, reference: str | Path) -> Calibration:
     params = [FitParameter(p.name, p.lower, p.upper, p.start, p.unit) for p in specs]
     return _calibrate(scenario, params, table.columns, table.reference_m, table.tolerance_m,
                       lines=table.lines, reference_source=table.source)
+
+
+def epistemic(
+    scenario: Scenario,
+    uncertain: UncertainSet,
+    *,
+    outer: int = 200,
+    inner: int = 100_000,
+    seed: int = 1,
+    method: str = "reweight",
+    upper_level: float = 0.95,
+) -> EpistemicAssessment:
+    """The distribution of P(overrun) over the scenario's ``[epistemic."<key>".<parameter>]`` tables:
+    its median, an upper quantile and the parameters that drive it; see studies.epistemic."""
+    _warn_fixed(uncertain)
+    params = epistemic_parameters(scenario.text, scenario.source, uncertain)
+    settings = EpistemicSettings(outer=outer, inner=inner, seed=seed, method=method, upper_level=upper_level)
+    return epistemic_assess(scenario, uncertain.problem(), params, settings)

@@ -16,6 +16,7 @@ from landrisk import CAUTION, __version__
 from landrisk.model import KEYS
 from landrisk.studies import Assessment, Ranking, RareAssessment
 from landrisk.studies.calibrate import Calibration
+from landrisk.studies.epistemic import EpistemicAssessment
 from landrisk.uq import exceedance_curve, wilson_interval
 
 if TYPE_CHECKING:
@@ -26,6 +27,7 @@ __all__ = [
     "RANK_FIGURES",
     "calibration_residuals_figure",
     "convergence_figure",
+    "epistemic_figure",
     "exceedance_figure",
     "figure_bytes",
     "histogram_figure",
@@ -281,4 +283,46 @@ def calibration_residuals_figure(c: Calibration) -> Figure:
     fig.suptitle(f"Calibration residuals: {c.scenario.name} against {c.reference_source}", fontsize=9)
     fig.tight_layout(rect=(0, 0.08, 1, 0.96))
     _footer(fig, c.scenario, f"{c.reference_m.size} reference rows, {c.solver_calls:,} solver calls")
+    return fig
+
+
+def epistemic_figure(e: EpistemicAssessment) -> Figure:
+    """The distribution of P(overrun) over the epistemic parameters (log axis), its median and upper
+    quantile; below it, apart, each draw's sampling interval of the Monte Carlo estimator."""
+    plt = _pyplot()
+    r = e.result
+    floor = 0.5 / r.inner_samples
+    p = np.maximum(r.probability, floor)
+    order = np.argsort(p)
+    fig, (ax, bx) = plt.subplots(2, 1, figsize=(8, 6.4), sharex=True, gridspec_kw={"height_ratios": [2, 1]})
+    bins = np.logspace(np.log10(p.min()) - 0.05, np.log10(p.max()) + 0.05, 30)
+    ax.hist(p, bins=bins, color="tab:blue", alpha=0.7, label=f"{r.outer} draws of the epistemic parameters")
+    med = float(np.quantile(r.probability, 0.5))
+    up = float(np.quantile(r.probability, r.upper_level))
+    ax.axvline(max(med, floor), color="black", lw=1.5, label=f"median {med:.2e}")
+    ax.axvline(max(up, floor), color="tab:red", lw=1.5, ls="--",
+               label=f"{100 * r.upper_level:g}th percentile {up:.2e}")
+    ax.set_xscale("log")
+    ax.set_ylabel("outer draws")
+    ax.set_title(f"P(overrun) over the epistemic parameters: {e.scenario.name}", fontsize=9)
+    ax.legend(fontsize=7)
+    ax.grid(True, which="both", alpha=0.3)
+    rank = np.arange(r.outer)
+    lo = np.maximum(r.sampling_lo[order], floor)
+    hi = np.maximum(r.sampling_hi[order], floor)
+    bx.hlines(rank, lo, hi, color=np.where(r.nested[order], "tab:orange", "grey"), lw=0.8)
+    bx.plot(p[order], rank, ".", ms=2, color="tab:blue")
+    n0, (l0, h0) = r.nominal_probability, r.nominal_interval
+    bx.errorbar([max(n0, floor)], [r.outer * 1.05], xerr=[[max(n0, floor) - max(l0, floor)],
+                                                          [max(h0, floor) - max(n0, floor)]],
+                fmt="s", color="black", capsize=3, label=f"nominal parameters {n0:.2e}")
+    bx.set_xlabel("probability of an overrun per landing")
+    bx.set_ylabel("draws (sorted)")
+    bx.set_title(f"sampling intervals ({100 * r.confidence:g} %) of each estimate, apart from the spread "
+                 "above (grey: reweighted, orange: nested)", fontsize=8)
+    bx.legend(fontsize=7, loc="lower right")
+    bx.grid(True, which="both", alpha=0.3)
+    fig.subplots_adjust(bottom=0.16, hspace=0.3)
+    _footer(fig, e.scenario, f"{r.method}, {r.inner_samples:,} inner samples, {r.solver_calls:,} solver "
+            f"calls, seed {e.settings.seed}")
     return fig

@@ -8,9 +8,11 @@ from landrisk import CAUTION, __version__
 from landrisk.model import SingleLanding
 from landrisk.studies import Assessment, Ranking, RareAssessment
 from landrisk.studies.calibrate import Calibration
+from landrisk.studies.epistemic import EpistemicAssessment
 from landrisk.units import convert
 
-__all__ = ["render_assess", "render_calibration", "render_rank", "render_rare", "render_solve"]
+__all__ = ["render_assess", "render_calibration", "render_epistemic", "render_rank", "render_rare",
+           "render_solve"]
 
 
 def _m_ft(label: str, metres: float, note: str = "") -> str:
@@ -317,3 +319,26 @@ def render_calibration(c: Calibration, written: list[str] | None = None) -> str:
               f"residual sd {c.residual_sd:.3g} (in units of the tolerance); {c.solver_calls:,} solver calls",
               f"Largest residual: {float(np.max(np.abs(c.residual_m))):.1f} m"]
     return _closing(lines, list(c.warnings), written)
+
+
+def render_epistemic(e: EpistemicAssessment) -> str:
+    """P(overrun) over the epistemic parameters: median, upper quantile, drivers, cost."""
+    r = e.result
+    med = float(np.quantile(r.probability, 0.5))
+    up = float(np.quantile(r.probability, r.upper_level))
+    lines = [
+        f"Epistemic uncertainty: P(overrun) over {r.outer} draws of {len(r.parameters)} uncertain "
+        f"distribution parameter(s) ({r.method}, {r.inner_samples:,} inner samples)",
+        f"  median                      {med:.3e}",
+        f"  {100 * r.upper_level:g}th percentile            {up:.3e}   (P(overrun) <= {up:.1e} with "
+        f"{100 * r.upper_level:g} % confidence in the inputs)",
+        f"  at the nominal parameters   {r.nominal_probability:.3e}  sampling interval "
+        f"[{r.nominal_interval[0]:.2e}, {r.nominal_interval[1]:.2e}] (estimator only)",
+        f"  solver calls {r.solver_calls:,}; {int(r.nested.sum())} nested draw(s); least effective sample "
+        f"size {r.ess.min():,.0f}",
+        "  drivers of log10 P (standardised regression coefficient squared, Spearman):",
+    ]
+    for name, src2, rho in r.drivers:
+        lines.append(f"    {name:<40}{src2:8.3f}{rho:+8.2f}")
+    lines += [f"Note: {n}" for n in r.notes]
+    return "\n".join(lines)
