@@ -183,3 +183,17 @@ def test_cli_assess_epistemic_json() -> None:
     json.dumps(ep, allow_nan=False)
     bad = CliRunner().invoke(main, ["assess", "--epistemic", "--method", "form"])
     assert bad.exit_code == 2
+
+
+def test_truncated_lognormal_density_and_cdf_match_scipy() -> None:
+    # log X ~ normal truncated to [log 0.3, log 6]: scipy.stats.truncnorm on log x, with the Jacobian 1/x
+    from landrisk.uq.epistemic import _cdf
+
+    m = make_marginal("lognormal", {"median": 1.5, "sigma_log": 0.4, "lower": 0.3, "upper": 6.0})
+    mu, sd = np.log(1.5), 0.4
+    ref = stats.truncnorm((np.log(0.3) - mu) / sd, (np.log(6.0) - mu) / sd, mu, sd)
+    x = np.linspace(0.35, 5.5, 30)
+    np.testing.assert_allclose(log_density(m, x), ref.logpdf(np.log(x)) - np.log(x), rtol=1e-10)
+    np.testing.assert_allclose(_cdf(m, x), ref.cdf(np.log(x)), rtol=1e-10, atol=1e-14)
+    n = make_marginal("normal", {"mean": 1.0, "sd": 2.0, "lower": 0.0, "upper": 4.0})
+    np.testing.assert_allclose(_cdf(n, x), stats.truncnorm(-0.5, 1.5, 1.0, 2.0).cdf(x), rtol=1e-10)

@@ -116,13 +116,37 @@ def _scipy(m: Marginal) -> Any:
     raise ValueError(f"a {m.family} distribution has no density to reweight by")
 
 
+def _normal_params(m: Marginal) -> tuple[float, float, bool]:
+    """(mu, sd, in logs) of a normal or lognormal marginal."""
+    if m.family == "lognormal":
+        mu, sd = m._log_params
+        return mu, sd, True
+    return float(m.params["mean"]), float(m.params["sd"]), False
+
+
+def _normal_mass(m: Marginal, mu: float, sd: float, logs: bool) -> tuple[float, float]:
+    """Phi at the standardised truncation bounds of a (log)normal marginal."""
+    with np.errstate(divide="ignore"):
+        lo = math.log(m.lower) if logs and m.lower > 0 else (-math.inf if logs else m.lower)
+        hi = math.log(m.upper) if logs and math.isfinite(m.upper) else (math.inf if logs else m.upper)
+    return float(special.ndtr((lo - mu) / sd)), float(special.ndtr((hi - mu) / sd))
+
+
 def log_density(m: Marginal, x: Array) -> Array:
     """log f(x) of a marginal (truncation included; -inf outside its support; a discrete choice's
     log probability). Empirical samples have no density and raise ValueError."""
     x = np.asarray(x, dtype=float)
-    if m.family == "normal" and not m.truncated:  # the common cases without scipy's overhead
-        z = (x - m.params["mean"]) / m.params["sd"]
-        return -0.5 * z * z - math.log(m.params["sd"]) - 0.5 * math.log(2 * math.pi)
+    inside = (x >= m.lower) & (x <= m.upper)
+    if m.family in ("normal", "truncnormal", "lognormal"):  # directly, without scipy's overhead
+        mu, sd, logs = _normal_params(m)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            y = np.log(x) if logs else x
+            z = (y - mu) / sd
+            out = -0.5 * z * z - math.log(sd) - 0.5 * math.log(2 * math.pi) - (y if logs else 0.0)
+        if m.truncated:
+            a, b = _normal_mass(m, mu, sd, logs)
+            out = out - math.log(b - a)
+        return np.where(inside, out, -np.inf)
     if m.discrete:
         values, probs = m.choices()
         idx = np.clip(np.searchsorted(values, x), 0, values.size - 1)
@@ -133,10 +157,19 @@ def log_density(m: Marginal, x: Array) -> Array:
     if m.truncated:
         mass = float(dist.cdf(m.upper) - dist.cdf(m.lower))
         out = out - math.log(mass)
-    return np.where((x >= m.lower) & (x <= m.upper), out, -np.inf)
+    return np.where(inside, out, -np.inf)
 
 
 def _cdf(m: Marginal, x: Array) -> Array:
+    if m.family in ("normal", "truncnormal", "lognormal"):
+        mu, sd, logs = _normal_params(m)
+        with np.errstate(divide="ignore"):
+            y = np.log(np.maximum(x, 0.0)) if logs else x
+        u = special.ndtr((y - mu) / sd)
+        if m.truncated:
+            a, b = _normal_mass(m, mu, sd, logs)
+            u = (u - a) / (b - a)
+        return np.clip(u, 0.0, 1.0)
     dist = _scipy(m)
     if not m.truncated:
         return np.asarray(dist.cdf(x), dtype=float)
@@ -144,39 +177,45 @@ def _cdf(m: Marginal, x: Array) -> Array:
     return np.clip((dist.cdf(x) - lo) / (hi - lo), 0.0, 1.0)
 
 
-def _copula_log_density(problem: Problem, x: Array) -> Array:
-    c = problem.correlated
-    if c.size == 0:
-        return np.zeros(x.shape[0])
-    assert problem.spearman is not None
-    r = normal_correlation_from_spearman(np.asarray(problem.spearman)[np.ix_(c, c)])
-    u = np.column_stack([_cdf(problem.marginals[i], x[:, i]) for i in c])
-    z = special.ndtri(np.clip(u, 1e-300, 1.0 - 1e-16))
-    a = np.linalg.inv(r) - np.eye(c.size)
-    _, logdet = np.linalg.slogdet(r)
-    return -0.5 * logdet - 0.5 * np.einsum("ni,ij,nj->n", z, a, z)
+class _Density:
+    """The part of log f(x; theta) that the ``changed`` marginals enter, for fixed samples x: their log
+    densities and, where one of them takes part in the copula, the copula's log density (its
+    correlation does not depend on theta, so only the changed inputs' normal scores are recomputed)."""
+
+    def __init__(self, problem: Problem, x: Array, changed: Sequence[int]) -> None:
+        self.x = x
+        self.changed = list(changed)
+        c = problem.correlated
+        self.copula = [i for i in self.changed if i in set(c.tolist())]
+        self.cols = c
+        if self.copula:
+            assert problem.spearman is not None
+            r = normal_correlation_from_spearman(np.asarray(problem.spearman)[np.ix_(c, c)])
+            self.a = np.linalg.inv(r) - np.eye(c.size)
+            self.z0 = np.column_stack([self._score(problem.marginals[i], x[:, i]) for i in c])
+
+    @staticmethod
+    def _score(m: Marginal, x: Array) -> Array:
+        return np.asarray(special.ndtri(np.clip(_cdf(m, x), 1e-300, 1.0 - 1e-16)))
+
+    def __call__(self, problem: Problem) -> Array:
+        out = np.zeros(self.x.shape[0])
+        for i in self.changed:
+            out += log_density(problem.marginals[i], self.x[:, i])
+        if self.copula:
+            z = self.z0.copy()
+            for i in self.copula:
+                z[:, int(np.flatnonzero(self.cols == i)[0])] = self._score(problem.marginals[i], self.x[:, i])
+            out += -0.5 * np.einsum("ni,ij,nj->n", z, self.a, z)
+        return out
 
 
-def _joint_log_density(problem: Problem, x: Array, changed: Sequence[int]) -> Array:
-    """The part of log f(x) that the ``changed`` marginals enter: their log densities and, where one
-    of them takes part in the copula, the copula's log density."""
-    out = np.zeros(x.shape[0])
-    for i in changed:
-        out += log_density(problem.marginals[i], x[:, i])
-    if set(changed) & set(problem.correlated.tolist()):
-        out += _copula_log_density(problem, x)
-    return out
-
-
-def log_density_ratio(problem: Problem, theta_problem: Problem, x: Array, changed: Sequence[int],
-                      base: Array | None = None) -> Array:
-    """log f(x; theta) - log f(x; theta_0) over the ``changed`` marginals and the copula (``base``:
-    the theta_0 part, :func:`_joint_log_density` of ``problem``, if already known)."""
+def log_density_ratio(problem: Problem, theta_problem: Problem, x: Array, changed: Sequence[int]) -> Array:
+    """log f(x; theta) - log f(x; theta_0) over the ``changed`` marginals and the copula."""
     x = np.atleast_2d(np.asarray(x, dtype=float))
-    if base is None:
-        base = _joint_log_density(problem, x, changed)
+    density = _Density(problem, x, changed)
     with np.errstate(invalid="ignore"):
-        out = _joint_log_density(theta_problem, x, changed) - base
+        out = density(theta_problem) - density(problem)
     return np.nan_to_num(out, nan=-np.inf)
 
 
@@ -284,13 +323,16 @@ def epistemic_probability(
     nested = np.zeros(outer, dtype=bool)
     lower0 = [problem.marginals[i].lower for i in changed]
     upper0 = [problem.marginals[i].upper for i in changed]
-    base = _joint_log_density(problem, x0, changed) if method == "reweight" else None
+    density = _Density(problem, x0, changed) if method == "reweight" else None
+    base = density(problem) if density is not None else None
     for j in range(outer):
         at = problem_at(problem, params, theta[j])
         inside = all(at.marginals[i].lower >= lo and at.marginals[i].upper <= hi
                      for i, lo, hi in zip(changed, lower0, upper0, strict=True))
         if method == "reweight" and inside:
-            w = w0 * np.exp(log_density_ratio(problem, at, x0, changed, base))
+            assert density is not None and base is not None
+            with np.errstate(invalid="ignore"):
+                w = w0 * np.exp(np.nan_to_num(density(at) - base, nan=-np.inf))
             ess[j] = float(w.sum() ** 2 / max(float(np.sum(w**2)), 1e-300))
             if ess[j] >= min_ess_fraction * n:
                 prob[j] = float(np.mean(w * fail0))
