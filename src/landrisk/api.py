@@ -46,13 +46,22 @@ if TYPE_CHECKING:
     import pandas as pd
 
     from landrisk.studies import Assessment, AssessSettings, Ranking, RareAssessment
+    from landrisk.studies.calibrate import Calibration
+    from landrisk.studies.epistemic import EpistemicAssessment
 
 __all__ = [
     "AssessSettings",
     "Assessment",
+    "Calibration",
+    "EpistemicAssessment",
     "SingleLanding",
     "assess",
     "assessment_record",
+    "calibrate",
+    "calibrated_scenario_text",
+    "calibration_record",
+    "epistemic",
+    "epistemic_record",
     "load",
     "load_study",
     "percentile_table",
@@ -68,6 +77,8 @@ __all__ = [
     "solve_many",
     "solve_record",
     "write_assessment",
+    "write_calibration",
+    "write_epistemic",
     "write_ranking",
     "write_rare",
     "write_starter",
@@ -205,10 +216,87 @@ def rare(
     return rare_assess(scenario, uncertain.problem(), settings)
 
 
+def calibrate(scenario: Scenario, reference: str | Path) -> Calibration:
+    """Fit the parameters of the scenario's ``[calibration]`` table to the reference CSV ``reference``.
+
+    See :mod:`landrisk.io.calibration` for the formats and :mod:`landrisk.studies.calibrate` for the
+    fit; :func:`calibration_record`, :func:`calibrated_scenario_text` and :func:`write_calibration`
+    give its JSON record, the calibrated scenario file and a results folder.
+    """
+    from landrisk.io.calibration import calibration_parameters, read_reference
+    from landrisk.studies.calibrate import FitParameter
+    from landrisk.studies.calibrate import calibrate as fit
+
+    specs = calibration_parameters(scenario.text, scenario.source, scenario)
+    table = read_reference(reference)
+    params = [FitParameter(p.name, p.lower, p.upper, p.start, p.unit) for p in specs]
+    return fit(scenario, params, table.columns, table.reference_m, table.tolerance_m,
+                      lines=table.lines, reference_source=table.source)
+
+
+def epistemic(
+    scenario: Scenario,
+    uncertain: UncertainSet,
+    *,
+    outer: int = 200,
+    inner: int = 100_000,
+    seed: int = 1,
+    method: str = "reweight",
+    upper_level: float = 0.95,
+) -> EpistemicAssessment:
+    """The distribution of P(overrun) over the scenario's ``[epistemic."<key>".<parameter>]`` tables:
+    its median, an upper quantile and the parameters that drive it; see studies.epistemic."""
+    from landrisk.io.epistemic import epistemic_parameters
+    from landrisk.studies.epistemic import EpistemicSettings, epistemic_assess
+
+    _warn_fixed(uncertain)
+    params = epistemic_parameters(scenario.text, scenario.source, uncertain)
+    settings = EpistemicSettings(outer=outer, inner=inner, seed=seed, method=method, upper_level=upper_level)
+    return epistemic_assess(scenario, uncertain.problem(), params, settings)
+
+
+def calibration_record(c: Calibration) -> dict[str, Any]:
+    """The JSON record of a calibration (see :mod:`landrisk.export.calibration`)."""
+    from landrisk.export import calibration
+
+    return calibration.calibration_record(c)
+
+
+def calibrated_scenario_text(c: Calibration, *, uncertain: bool = False) -> str:
+    """The scenario file with the fitted values in place, each with its ``source`` line."""
+    from landrisk.export import calibration
+
+    return calibration.calibrated_scenario_text(c, uncertain=uncertain)
+
+
+def write_calibration(c: Calibration, folder: str | Path, *, force: bool = False,
+                      uncertain: bool = False, figures: bool = True) -> list[Path]:
+    """calibration.json, residuals.csv, calibrated.toml and the residual figure."""
+    from landrisk.export import calibration
+
+    return calibration.write_calibration(c, folder, force=force, uncertain=uncertain, figures=figures)
+
+
+def epistemic_record(e: EpistemicAssessment) -> dict[str, Any]:
+    """The JSON record of an epistemic assessment (median, upper quantile, drivers)."""
+    from landrisk.export import epistemic as records
+
+    return records.epistemic_record(e)
+
+
+def write_epistemic(e: EpistemicAssessment, folder: str | Path, *, force: bool = False,
+                    figures: bool = True) -> list[Path]:
+    """epistemic.json, epistemic.csv and the figure of P(overrun) over the epistemic parameters."""
+    from landrisk.export import epistemic as records
+
+    return records.write_epistemic(e, folder, force=force, figures=figures)
+
+
 def __getattr__(name: str) -> Any:
     # The result and settings classes, re-exported without importing every study up front.
     if name in ("AssessSettings", "Assessment"):
         import landrisk.studies.assess as module
 
         return getattr(module, name)
+
     raise AttributeError(f"module 'landrisk.api' has no attribute {name!r}")

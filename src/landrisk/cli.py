@@ -125,10 +125,17 @@ class _ProgressBar:
 @click.option("--force", is_flag=True, help="Replace existing output files.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of the summary.")
 @click.option("--quiet", is_flag=True, help="No progress bar.")
+@click.option("--epistemic", "epistemic", is_flag=True, help="Also the distribution of P(overrun) over the "
+              "scenario's [epistemic.\"<key>\".<parameter>] tables: median, upper quantile, drivers (Monte "
+              "Carlo inner samples, --samples of them, reweighted for every outer draw).")
+@click.option("--outer", type=click.IntRange(min=2), default=200, show_default=True,
+              help="With --epistemic: outer draws of the epistemic parameters.")
+@click.option("--epistemic-method", type=click.Choice(["reweight", "nested"]), default="reweight",
+              show_default=True, help="With --epistemic: reweight one inner sample, or a nested loop.")
 @_reported
 def assess(config: str | None, samples: int, seed: int, sampler: str, method: str,
            overrides: tuple[str, ...], out_dir: str | None, save_samples: bool, force: bool, as_json: bool,
-           quiet: bool) -> None:
+           quiet: bool, epistemic: bool, outer: int, epistemic_method: str) -> None:
     """Probability of an overrun and percentile landing distances, by Monte Carlo.
 
     Samples the scenario's uncertain inputs ([uncertain."<key>"] tables), solves every landing, and
@@ -144,6 +151,8 @@ def assess(config: str | None, samples: int, seed: int, sampler: str, method: st
     if save_samples and not out_dir:
         raise click.UsageError("--save-samples needs --out DIR")
     scenario, uncertain = api.load_study(config, overrides)
+    if epistemic and method != "mc":
+        raise click.UsageError("--epistemic works with --method mc (Monte Carlo inner samples)")
     if method != "mc":
         rare = api.rare(scenario, uncertain, method=method, seed=seed)
         written = [str(p) for p in api.write_rare(rare, out_dir, force=force)] if out_dir else None
@@ -159,11 +168,19 @@ def assess(config: str | None, samples: int, seed: int, sampler: str, method: st
     finally:
         bar.close()
     written = [str(p) for p in api.write_assessment(result, out_dir, force=force)] if out_dir else None
+    ep = (api.epistemic(scenario, uncertain, outer=outer, inner=samples, seed=seed, method=epistemic_method)
+          if epistemic else None)
+    if ep is not None and out_dir and written is not None:
+        written += [str(p) for p in api.write_epistemic(ep, out_dir, force=force)]
     if as_json:
-        click.echo(json.dumps({k: v for k, v in api.assessment_record(result).items()
-                               if k != "scenario_text"}, indent=2, default=str))
+        record = {k: v for k, v in api.assessment_record(result).items() if k != "scenario_text"}
+        if ep is not None:
+            record["epistemic"] = api.epistemic_record(ep)
+        click.echo(json.dumps(record, indent=2, default=str))
     else:
         click.echo(report.render_assess(result, written))
+        if ep is not None:
+            click.echo("\n" + report.render_epistemic(ep))
 
 
 def _order(value: str) -> int | None:
@@ -214,6 +231,38 @@ def rank(config: str | None, method: str, order: str, calls: int | None, seed: i
                               indent=2, default=str))
     else:
         click.echo(report.render_rank(result, written))
+
+
+@main.command(epilog=_HELP_CAUTION)
+@click.argument("config", type=click.Path(dir_okay=False))
+@click.argument("reference", type=click.Path(dir_okay=False))
+@_set_option
+@click.option("--out", "out_dir", type=click.Path(file_okay=False),
+              help="Write calibration.json, residuals.csv, calibrated.toml and the residual figure here.")
+@click.option("--uncertain", is_flag=True, help="In calibrated.toml, also add the fitted keys as "
+              "correlated normal uncertain inputs (the fit's covariance as a Gaussian copula).")
+@click.option("--force", is_flag=True, help="Replace existing output files.")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of the table.")
+@_reported
+def calibrate(config: str, reference: str, overrides: tuple[str, ...], out_dir: str | None, uncertain: bool,
+              force: bool, as_json: bool) -> None:
+    """Fit the parameters of CONFIG's [calibration] table to the reference distances in REFERENCE.csv.
+
+    REFERENCE.csv has one row per reference landing: headers name a scenario key and its unit in
+    brackets (aircraft.mass [lb], conditions.headwind [kt], runway.condition_code), the column
+    reference_distance [ft] the total distance from the screen height, and an optional tolerance [ft]
+    each row's standard uncertainty. Prints the fitted values with standard errors, their correlation,
+    the residuals and warnings where parameters are confounded.
+    """
+    from landrisk import api, report
+
+    result = api.calibrate(api.load(config, overrides), reference)
+    written = ([str(p) for p in api.write_calibration(result, out_dir, force=force, uncertain=uncertain)]
+               if out_dir else None)
+    if as_json:
+        click.echo(json.dumps(api.calibration_record(result), indent=2, default=str))
+    else:
+        click.echo(report.render_calibration(result, written))
 
 
 @main.command(epilog=_HELP_CAUTION)

@@ -15,6 +15,8 @@ import numpy as np
 from landrisk import CAUTION, __version__
 from landrisk.model import KEYS
 from landrisk.studies import Assessment, Ranking, RareAssessment
+from landrisk.studies.calibrate import Calibration
+from landrisk.studies.epistemic import EpistemicAssessment
 from landrisk.uq import exceedance_curve, wilson_interval
 
 if TYPE_CHECKING:
@@ -23,7 +25,9 @@ if TYPE_CHECKING:
 __all__ = [
     "FIGURES",
     "RANK_FIGURES",
+    "calibration_residuals_figure",
     "convergence_figure",
+    "epistemic_figure",
     "exceedance_figure",
     "figure_bytes",
     "histogram_figure",
@@ -252,4 +256,73 @@ def risk_curve_figure(r: RareAssessment) -> Figure:
     ax.legend(fontsize=7, loc="lower left")
     fig.subplots_adjust(bottom=0.2)
     _footer(fig, r.scenario, f"seed {r.settings.seed}")
+    return fig
+
+
+def calibration_residuals_figure(c: Calibration) -> Figure:
+    """Residual (model - reference) [m] of each reference row against each condition the table varies,
+    with the rows' tolerances as error bars; at the fitted values (dots) and at the start (crosses)."""
+    plt = _pyplot()
+    varied = [k for k, v in c.conditions.items() if np.unique(np.asarray(v)).size > 1] or list(c.conditions)
+    cols = max(1, min(3, len(varied)))
+    rows = max(1, -(-len(varied) // cols))
+    fig, axes = plt.subplots(rows, cols, figsize=(4.0 * cols, 3.2 * rows + 0.8), squeeze=False)
+    for ax, key in zip(axes.flat, varied, strict=False):
+        x = np.asarray(c.conditions[key], dtype=float)
+        ax.plot(x, c.start_model_m - c.reference_m, "x", color="grey", ms=4, label="at the start")
+        ax.errorbar(x, c.residual_m, yerr=c.sigma_m if c.sigma_from == "tolerance" else None, fmt="o", ms=3,
+                    capsize=2, label="fitted")
+        ax.axhline(0.0, color="black", lw=0.8)
+        unit = KEYS[key].unit if key in KEYS else ""
+        ax.set_xlabel(f"{key} [{unit}]" if unit else key, fontsize=8)
+        ax.set_ylabel("model - reference [m]", fontsize=8)
+        ax.grid(True, alpha=0.3)
+    for ax in list(axes.flat)[len(varied):]:
+        ax.set_visible(False)
+    axes.flat[0].legend(fontsize=7)
+    fig.suptitle(f"Calibration residuals: {c.scenario.name} against {c.reference_source}", fontsize=9)
+    fig.tight_layout(rect=(0, 0.08, 1, 0.96))
+    _footer(fig, c.scenario, f"{c.reference_m.size} reference rows, {c.solver_calls:,} solver calls")
+    return fig
+
+
+def epistemic_figure(e: EpistemicAssessment) -> Figure:
+    """The distribution of P(overrun) over the epistemic parameters (log axis), its median and upper
+    quantile; below it, apart, each draw's sampling interval of the Monte Carlo estimator."""
+    plt = _pyplot()
+    r = e.result
+    floor = 0.5 / r.inner_samples
+    p = np.maximum(r.probability, floor)
+    order = np.argsort(p)
+    fig, (ax, bx) = plt.subplots(2, 1, figsize=(8, 6.4), sharex=True, gridspec_kw={"height_ratios": [2, 1]})
+    bins = np.logspace(np.log10(p.min()) - 0.05, np.log10(p.max()) + 0.05, 30)
+    ax.hist(p, bins=bins, color="tab:blue", alpha=0.7, label=f"{r.outer} draws of the epistemic parameters")
+    med = float(np.quantile(r.probability, 0.5))
+    up = float(np.quantile(r.probability, r.upper_level))
+    ax.axvline(max(med, floor), color="black", lw=1.5, label=f"median {med:.2e}")
+    ax.axvline(max(up, floor), color="tab:red", lw=1.5, ls="--",
+               label=f"{100 * r.upper_level:g}th percentile {up:.2e}")
+    ax.set_xscale("log")
+    ax.set_ylabel("outer draws")
+    ax.set_title(f"P(overrun) over the epistemic parameters: {e.scenario.name}", fontsize=9)
+    ax.legend(fontsize=7)
+    ax.grid(True, which="both", alpha=0.3)
+    rank = np.arange(r.outer)
+    lo = np.maximum(r.sampling_lo[order], floor)
+    hi = np.maximum(r.sampling_hi[order], floor)
+    bx.hlines(rank, lo, hi, color=np.where(r.nested[order], "tab:orange", "grey"), lw=0.8)
+    bx.plot(p[order], rank, ".", ms=2, color="tab:blue")
+    n0, (l0, h0) = r.nominal_probability, r.nominal_interval
+    bx.errorbar([max(n0, floor)], [r.outer * 1.05], xerr=[[max(n0, floor) - max(l0, floor)],
+                                                          [max(h0, floor) - max(n0, floor)]],
+                fmt="s", color="black", capsize=3, label=f"nominal parameters {n0:.2e}")
+    bx.set_xlabel("probability of an overrun per landing")
+    bx.set_ylabel("draws (sorted)")
+    bx.set_title(f"sampling intervals ({100 * r.confidence:g} %) of each estimate, apart from the spread "
+                 "above (grey: reweighted, orange: nested)", fontsize=8)
+    bx.legend(fontsize=7, loc="lower right")
+    bx.grid(True, which="both", alpha=0.3)
+    fig.subplots_adjust(bottom=0.16, hspace=0.3)
+    _footer(fig, e.scenario, f"{r.method}, {r.inner_samples:,} inner samples, {r.solver_calls:,} solver "
+            f"calls, seed {e.settings.seed}")
     return fig

@@ -12,8 +12,11 @@ from landrisk.units import convert
 
 if TYPE_CHECKING:  # imported with the results themselves, not by printing a landing
     from landrisk.studies import Assessment, Ranking, RareAssessment
+    from landrisk.studies.calibrate import Calibration
+    from landrisk.studies.epistemic import EpistemicAssessment
 
-__all__ = ["render_assess", "render_rank", "render_rare", "render_solve"]
+__all__ = ["render_assess", "render_calibration", "render_epistemic", "render_rank", "render_rare",
+           "render_solve"]
 
 
 def _m_ft(label: str, metres: float, note: str = "") -> str:
@@ -292,3 +295,54 @@ def _show(key: str, value: object) -> str:
     if unit == "m/s":
         return f"{convert(float(value), 'm/s', 'kt'):.1f} kt"
     return f"{value:.4g} {unit}".rstrip()
+
+
+def render_calibration(c: Calibration, written: list[str] | None = None) -> str:
+    """The fitted parameters with standard errors, their correlation, and the residuals."""
+    s = c.scenario
+    rms = float(np.sqrt(np.mean(c.residual_m**2)))
+    rms0 = float(np.sqrt(np.mean((c.start_model_m - c.reference_m) ** 2)))
+    lines = [
+        f"landrisk {__version__} - calibration against reference distances",
+        f"Scenario: {s.name} ({s.source}); reference: {c.reference_source} ({c.reference_m.size} rows)",
+        "Weighted least squares (scipy.optimize.least_squares), "
+        + ("weights 1/tolerance^2" if c.sigma_from == "tolerance" else "equal weights, covariance scaled by "
+           "the residual variance"),
+        "",
+        f"  {'parameter':<34}{'fitted':>12}{'std. error':>12}{'start':>12}   bounds",
+    ]
+    for p in c.parameters:
+        se = "-" if p.standard_error is None else f"{p.standard_error:.4g}"
+        lines.append(f"  {p.name:<34}{p.value:12.5g}{se:>12}{p.start:12.5g}   [{p.lower:g}, {p.upper:g}]"
+                     + (" AT BOUND" if p.at_bound else ""))
+    names = [p.name.rsplit(".", 1)[-1][:10] for p in c.parameters]
+    lines += ["", "Correlation of the estimates:", "  " + " " * 12 + "".join(f"{n:>11}" for n in names)]
+    for n, row in zip(names, c.correlation, strict=True):
+        lines.append(f"  {n:<12}" + "".join(f"{x:11.3f}" for x in row))
+    lines += ["", f"RMS residual {rms:.1f} m ({convert(rms, 'm', 'ft'):.0f} ft), at the start {rms0:.1f} m; "
+              f"residual sd {c.residual_sd:.3g} (in units of the tolerance); {c.solver_calls:,} solver calls",
+              f"Largest residual: {float(np.max(np.abs(c.residual_m))):.1f} m"]
+    return _closing(lines, list(c.warnings), written)
+
+
+def render_epistemic(e: EpistemicAssessment) -> str:
+    """P(overrun) over the epistemic parameters: median, upper quantile, drivers, cost."""
+    r = e.result
+    med = float(np.quantile(r.probability, 0.5))
+    up = float(np.quantile(r.probability, r.upper_level))
+    lines = [
+        f"Epistemic uncertainty: P(overrun) over {r.outer} draws of {len(r.parameters)} uncertain "
+        f"distribution parameter(s) ({r.method}, {r.inner_samples:,} inner samples)",
+        f"  median                      {med:.3e}",
+        f"  {100 * r.upper_level:g}th percentile            {up:.3e}   (P(overrun) <= {up:.1e} with "
+        f"{100 * r.upper_level:g} % confidence in the inputs)",
+        f"  at the nominal parameters   {r.nominal_probability:.3e}  sampling interval "
+        f"[{r.nominal_interval[0]:.2e}, {r.nominal_interval[1]:.2e}] (estimator only)",
+        f"  solver calls {r.solver_calls:,}; {int(r.nested.sum())} nested draw(s); least effective sample "
+        f"size {r.ess.min():,.0f}",
+        "  drivers of log10 P (standardised regression coefficient squared, Spearman):",
+    ]
+    for name, src2, rho in r.drivers:
+        lines.append(f"    {name:<40}{src2:8.3f}{rho:+8.2f}")
+    lines += [f"Note: {n}" for n in r.notes]
+    return "\n".join(lines)

@@ -41,6 +41,8 @@ TOUCHDOWN_RATIO_PRACTICE = 1.15
 
 _SECTIONS = ("scenario", "aircraft", "conditions", "runway", "procedure")
 _THRUST_SETTINGS = ("idle", "reverse")
+#: Sections of a scenario file that other readers take (calibration, epistemic parameters).
+_READ_ELSEWHERE = ("calibration", "epistemic")
 
 
 def demo_text() -> str:
@@ -98,6 +100,8 @@ def parse_study(
         fixed.add(key)
     origin = {key: "--set" for key in fixed}
     tables, correlation = raw.pop("uncertain", None), raw.pop("correlation", None)
+    for section in _READ_ELSEWHERE:  # read by landrisk.io.calibration and landrisk.io.epistemic
+        raw.pop(section, None)
     try:
         values, flat = _values(raw, source, origin, optional=set(tables or {}))
         given = {k for k in flat if k in KEYS}
