@@ -124,8 +124,10 @@ def example(x: float, unit: str, *, difference: bool = False) -> str:
         return f'write "{given} {key_unit}"'
 
 
-def parse_quantity(text: str) -> tuple[float, str]:
+def parse_quantity(text: str, unit: str = "m") -> tuple[float, str]:
     """The number and the unit expression of ``text`` (``""`` if none), checked by the strict pattern.
+
+    ``unit`` is only used in the message, for an example of what to write.
 
     Raises
     ------
@@ -135,8 +137,9 @@ def parse_quantity(text: str) -> tuple[float, str]:
     """
     m = _QUANTITY_RE.fullmatch(text)
     if m is None:
+        like = f"1.5 {shown_unit(unit)}".strip()
         raise UnitError(
-            'is not a number and a unit such as "1900 m" (no thousands separators, no spaces inside '
+            f'is not a number and a unit such as "{like}" (no thousands separators, no spaces inside '
             "the number, no arithmetic)"
         )
     number = m.group("number")
@@ -198,7 +201,7 @@ def to_unit(value: Any, unit: str, *, difference: bool = False, bare: bool | Non
     if bare is None:
         bare = unit == ""
     if isinstance(value, str):
-        x, written = parse_quantity(value)
+        x, written = parse_quantity(value, unit)
         if written:
             return _convert_written(x, written, unit, difference, value)
     elif isinstance(value, int | float) and not isinstance(value, bool):

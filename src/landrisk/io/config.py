@@ -8,6 +8,7 @@ written and what is allowed. Inputs that are accepted but outside common practic
 from __future__ import annotations
 
 import difflib
+import re
 import tomllib
 import warnings
 from collections.abc import Iterable, Mapping
@@ -129,11 +130,23 @@ def parse_study(
 def _toml(text: str, source: str) -> dict[str, Any]:
     try:
         return tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:  # the message gives a line and column, never the text
-        raise ConfigError(f"not valid TOML ({exc})", file=source) from None
+    except tomllib.TOMLDecodeError as exc:
+        raise ConfigError(f"not valid TOML ({_toml_reason(str(exc))})", file=source) from None
     except RecursionError:
         raise ConfigError(f"arrays or tables are nested too deeply (more than {MAX_DEPTH} levels)",
                           file=source) from None
+    except ValueError:  # Python refuses to read a whole number of more than 4 300 digits
+        long = re.search(r"[0-9_]{4000,}", text)
+        line = f" on line {text.count(chr(10), 0, long.start()) + 1}" if long else ""
+        raise ConfigError(f"a number{line} has thousands of digits", file=source) from None
+
+
+def _toml_reason(message: str) -> str:
+    """tomllib's reason and position, without the keys it quotes from the text (the file may be any file)."""
+    if re.search(r"Cannot declare|namespace|Duplicate inline table key", message):
+        where = re.search(r"\((at line \d+, column \d+|at end of document)\)", message)
+        return "a key or table is defined twice" + (f" ({where.group(1)})" if where else "")
+    return message
 
 
 def _check_tree(node: Any, where: str) -> None:
@@ -142,15 +155,19 @@ def _check_tree(node: Any, where: str) -> None:
     while stack:
         value, path, depth = stack.pop()
         if depth > MAX_DEPTH:
+            short = path.split("[", 1)[0] + ("[...]" if "[" in path else "")
             raise ConfigError(f"arrays or tables are nested too deeply (more than {MAX_DEPTH} levels)",
-                              key=path or None)
+                              key=short or None)
         if isinstance(value, dict):
-            stack.extend((v, f"{path}.{k}" if path else str(k), depth + 1) for k, v in value.items())
+            for k, v in value.items():
+                name = f'"{k}"' if "." in str(k) else str(k)  # a dotted key inside [uncertain."<key>"]
+                stack.append((v, f"{path}.{name}" if path else name, depth + 1))
         elif isinstance(value, list):
             stack.extend((v, f"{path}[{i}]", depth + 1) for i, v in enumerate(value))
         elif isinstance(value, int) and not isinstance(value, bool) and abs(value) > MAX_INT:
-            raise ConfigError(f"the whole number has {len(str(abs(value)))} digits, too many to be exact "
-                              "(at most 2^53)", key=path or None)
+            digits = len(str(abs(value)))  # at most 4 300: tomllib reads no longer whole numbers
+            raise ConfigError(f"the whole number has {digits} digits, too many to be exact (at most 2^53)",
+                              key=path or None, value=f"{str(value)[:12]}... ({digits} digits)")
 
 
 def _drop(raw: dict[str, Any], key: str) -> None:
@@ -180,7 +197,7 @@ def _read(p: Path) -> str:
         reason = exc.strerror or type(exc).__name__
         raise ConfigError(f"cannot read the file ({reason})", file=str(p)) from None
     if len(data) > MAX_FILE_BYTES:
-        raise ConfigError(f"is larger than {MAX_FILE_BYTES // 1024} KiB; a scenario file is a few KiB of "
+        raise ConfigError(f"is larger than {MAX_FILE_BYTES >> 20} MiB; a scenario file is a few KiB of "
                           "TOML", file=str(p))
     try:
         return data.decode("utf-8-sig")
@@ -204,10 +221,13 @@ def parse_set(item: str) -> tuple[str, Any]:
     except RecursionError:
         raise ConfigError(f"nested too deeply (more than {MAX_DEPTH} levels)", key=key,
                           file="--set") from None
+    except ValueError:  # a whole number of more than 4 300 digits
+        raise ConfigError("the number has thousands of digits", key=key, file="--set") from None
     try:
         _check_tree(parsed, key)
     except ConfigError as exc:
-        raise ConfigError(exc.reason, key=key, value=value.strip()[:60], file="--set") from None
+        shown = exc.value if exc.value is not None else value.strip()[:60]
+        raise ConfigError(exc.reason, key=key, value=shown, file="--set") from None
     return key, parsed
 
 
@@ -324,7 +344,7 @@ def _fit_points(points: Any, key: str) -> dict[str, float]:
         if not spec.contains(x):
             raise ConfigError(f"the fit gives {name} = {x:.4g} {shown_unit(spec.unit)}, outside its allowed "
                               "range; check the points or give t0, t1, t2", key=key, value=points,
-                              allowed=f"{name} in {spec.allowed().replace('**', '^')}")
+                              allowed=f"{name} in {_allowed(spec)}")
     return fitted
 
 
@@ -345,12 +365,18 @@ def _quantity(spec: Key, value: Any) -> float:
     except BareNumberError as exc:
         raise ConfigError(str(exc), key=spec.name, value=value) from None
     except UnitError as exc:
-        raise ConfigError(str(exc), key=spec.name, value=value, allowed=spec.allowed()) from None
+        raise ConfigError(str(exc), key=spec.name, value=value, allowed=_allowed(spec)) from None
     if not spec.contains(x):
-        shown = f" (= {x:g} {spec.unit})" if isinstance(value, str) else ""
+        shown = f" (= {x:g} {shown_unit(spec.unit)})".replace(" )", ")") if isinstance(value, str) else ""
         raise ConfigError(f"outside the allowed range{shown}", key=spec.name, value=value,
-                          allowed=spec.allowed())
+                          allowed=_allowed(spec))
     return x
+
+
+def _allowed(spec: Key) -> str:
+    """The key's allowed range with its unit as users write it (``m^2``, ``%``)."""
+    text = spec.allowed()
+    return text[: -len(spec.unit)] + shown_unit(spec.unit) if spec.unit and text.endswith(spec.unit) else text
 
 
 def _typed(spec: Key, value: Any) -> Any:
@@ -374,7 +400,10 @@ def _values(
     raw: Mapping[str, Any], source: str, origin: Mapping[str, str], optional: set[str]
 ) -> tuple[dict[str, Any], dict[str, Any]]:
     """Every key's value (``optional``: required keys that may be missing, being uncertain)."""
-    flat = _flatten(raw)
+    try:
+        flat = _flatten(raw)
+    except ConfigError as exc:  # a thrust coefficient given by --set is checked here
+        raise (exc.with_file(f"{source} (--set)") if exc.key in origin else exc) from None
     values: dict[str, Any] = {}
     for name, spec in KEYS.items():
         where = origin.get(name)

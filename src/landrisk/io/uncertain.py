@@ -24,6 +24,7 @@ a finite number.
 from __future__ import annotations
 
 import math
+import re
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -245,7 +246,9 @@ def _read_column(spec: Key, body: dict[str, Any], base_dir: Path | None, where: 
     try:
         frame = pd.read_csv(io.StringIO(text), comment="#", dtype=str, keep_default_na=False)
     except Exception as exc:  # pandas raises many kinds; their messages may quote the file
-        raise ConfigError(f"cannot read it as a CSV table ({type(exc).__name__})", key=f"{where}.file",
+        line = re.search(r"fields in line ([0-9]+)", str(exc))
+        reason = f"line {line.group(1)} has more fields than the header" if line else type(exc).__name__
+        raise ConfigError(f"cannot read it as a CSV table ({reason})", key=f"{where}.file",
                           value=str(path)) from None
     if column not in frame.columns:
         raise ConfigError(f"no such column (the file has {len(frame.columns)} columns)",
