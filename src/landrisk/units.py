@@ -207,7 +207,8 @@ def to_unit(value: Any, unit: str, *, difference: bool = False, bare: bool | Non
     elif isinstance(value, int | float) and not isinstance(value, bool):
         x = _number(value)
     else:
-        raise UnitError(f"expected a quantity such as \"12 {shown_unit(unit) or 'm'}\"")
+        wanted = f'a quantity such as "12 {shown_unit(unit)}"' if unit else "a number"
+        raise UnitError(f"expected {wanted}")
     if not bare:
         raise BareNumberError(f"a bare number has no unit; {example(x, unit, difference=difference)}")
     return x
