@@ -282,8 +282,8 @@ def scenarios(draw, realistic_thrust: bool = False) -> str:
     mass = draw(st.floats(KEYS["aircraft.mass"].lo * 1.001, KEYS["aircraft.mass"].hi * 0.999))
     lines = ["[aircraft]", f"mass = {_si_text('aircraft.mass', mass, draw(st.sampled_from(_UNITS['kg'])))}"]
     if realistic_thrust:  # and a wing loading of 100-700 kg/m^2, aspect ratio 5-12 (common practice)
-        area = float(np.clip(mass / draw(st.floats(100.0, 700.0)), 1.0, 1000.0))
-        span = float(np.clip(math.sqrt(draw(st.floats(5.0, 12.0)) * area), 2.0, 100.0))
+        area = float(np.clip(mass / draw(st.floats(100.0, 700.0)), 1.001, 999.0))  # clear of the ends
+        span = float(np.clip(math.sqrt(draw(st.floats(5.0, 12.0)) * area), 2.001, 99.9))
         lines += [f"wing_area = {_si_text('', area, draw(st.sampled_from(_UNITS['m**2'])))}",
                   f"wing_span = {_si_text('', span, draw(st.sampled_from(_UNITS['m'])))}"]
     else:
