@@ -25,7 +25,7 @@ def main() -> None:
     ap.add_argument("--lda", type=float, default=2580.0, help="landing distance available [m]")
     ap.add_argument("--subset-samples", type=int, default=1000, help="per level and replicate")
     args = ap.parse_args()
-    scenario, uncertain = api.load_study(None, [f"runway.lda={args.lda}"])
+    scenario, uncertain = api.load_study(None, [f'runway.lda="{args.lda} m"'])
     print(f"landrisk {__version__} rare-event benchmark (one core): demo, LDA {args.lda:.0f} m")
     print(f"  {'method':<12}{'P(overrun)':>12}{'CoV':>8}{'calls':>9}{'time [s]':>10}  notes")
     for method in ("form", "importance", "subset"):

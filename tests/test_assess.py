@@ -22,20 +22,20 @@ DATA = Path(__file__).resolve().parent / "data"
 # value here; the checks below are relations that hold for any aircraft).
 BASE = """
 [aircraft]
-mass = 33112
-wing_area = 88.26
-wing_span = 22.86
-wing_height = 1.71
+mass = "33112 kg"
+wing_area = "88.26 m^2"
+wing_span = "22.86 m"
+wing_height = "1.71 m"
 cl_max = 2.39
 cd0 = 0.0276
 oswald = 0.9
 cl_ground = 0.1
 [runway]
-lda = 1200
+lda = "1200 m"
 rolling_mu = 0.03
 braking_mu = 0.4
 [procedure]
-reaction_time = 3
+reaction_time = "3 s"
 """
 
 
@@ -158,7 +158,7 @@ unit = "ft"
         ('[uncertain."runway.condition_code"]\ndistribution = "discrete"\nvalues = [6, 5]\n'
          "probabilities = [0.5, 0.4]\n", "sum to 1"),
         ('[uncertain."runway.braking_mu"]\ndistribution = "gauss"\n', "unknown or missing distribution"),
-        ('[uncertain."runway.lda"]\ndistribution = "uniform"\nlower = "1 kg"\nupper = 2\n', "not m"),
+        ('[uncertain."runway.lda"]\ndistribution = "uniform"\nlower = "1 kg"\nupper = "2 m"\n', "not m"),
         ('[uncertain."runway.name"]\ndistribution = "uniform"\nlower = 0\nupper = 1\n', "not a scalar key"),
         ('[uncertain."procedure.use_reverse"]\ndistribution = "uniform"\nlower = 0\nupper = 1\n',
          "discrete"),

@@ -16,15 +16,15 @@ CONFIGS = sorted((ROOT / "configs").glob("*.toml"))
 
 MINIMAL = """
 [aircraft]
-mass = 20000
-wing_area = 60
-wing_span = 25
-wing_height = 2
+mass = "20000 kg"
+wing_area = "60 m^2"
+wing_span = "25 m"
+wing_height = "2 m"
 cl_max = 2.4
 cd0 = 0.06
 cl_ground = 0.2
 [runway]
-lda = 1500
+lda = "1500 m"
 braking_mu = 0.3
 """
 
@@ -74,7 +74,9 @@ def test_defaults_of_a_minimal_file() -> None:
         ("conditions.temperature", '"15 degC"', 288.15),
         ("conditions.temperature", '"59 degF"', 288.15),
         ("runway.slope", '"2 %"', 2.0),
-        ("runway.slope", "-1.5", -1.5),
+        ("runway.slope", '"-1.5 %"', -1.5),
+        ("runway.slope", '"-1.5 percent"', -1.5),
+        ("procedure.approach_angle", '"3.5 deg"', 3.5),
         ("procedure.approach_angle", '"0.06 rad"', np.degrees(0.06)),
         ("procedure.reaction_time", '"1500 ms"', 1.5),
         ("aircraft.wing_area", '"1000 ft^2"', 1000 * 0.3048**2),
@@ -118,7 +120,7 @@ def test_thrust_points_are_fitted_by_a_quadratic() -> None:
         t = v["aircraft.thrust.reverse.t0"] + v["aircraft.thrust.reverse.t1"] * speed + \
             v["aircraft.thrust.reverse.t2"] * speed**2
         assert t == pytest.approx(kn * 1000, rel=1e-10)
-    two = scenario('[aircraft.thrust.idle]\npoints = [[0, 6000], [50, 5000]]\n').values
+    two = scenario('[aircraft.thrust.idle]\npoints = [["0 m/s", "6000 N"], ["50 m/s", "5 kN"]]\n').values
     assert (two["aircraft.thrust.idle.t0"], two["aircraft.thrust.idle.t1"]) == pytest.approx((6000, -20))
     assert two["aircraft.thrust.idle.t2"] == 0.0
 
@@ -130,10 +132,10 @@ def test_condition_code_sets_friction() -> None:
 
 
 def test_set_replaces_the_other_form_of_friction_and_temperature() -> None:
-    s = scenario("[conditions]\ntemperature = 300\n", overrides=["runway.condition_code=2",
-                                                                 "conditions.isa_deviation=5"])
+    s = scenario('[conditions]\ntemperature = "300 K"\n', overrides=["runway.condition_code=2",
+                                                                    'conditions.isa_deviation="5 K"'])
     assert s.values["runway.braking_mu"] is None and s.values["conditions.temperature"] is None
-    assert s.overrides == ("runway.condition_code=2", "conditions.isa_deviation=5")
+    assert s.overrides == ("runway.condition_code=2", 'conditions.isa_deviation="5 K"')
 
 
 def test_set_bare_text_is_read_as_a_quantity() -> None:
@@ -149,21 +151,22 @@ def test_low_touchdown_ratio_warns() -> None:
 @pytest.mark.parametrize(
     ("extra", "overrides", "needle"),
     [
-        ("", ["aircraft.mass=-5"], "aircraft.mass = -5: outside the allowed range (allowed: [100, 7"),
+        ("", ['aircraft.mass="-5 kg"'],
+         "aircraft.mass = '-5 kg': outside the allowed range (= -5 kg) (allowed: [100, 7"),
         ("", ['aircraft.mass="5 m"'], "has units of [length], not kg"),
         ("", ["runway.braking_mu=1.6"], "allowed: (0, 1.5]"),
         ("", ["runway.rolling_mu=0"], "allowed: (0, 1.5]"),
         ("", ["procedure.touchdown_speed_ratio=1.0"], "allowed: (1, 2]"),
-        ("", ["procedure.approach_angle=45"], "allowed: (0, 12] deg"),
-        ("", ["conditions.headwind=58"], "below the touchdown speed"),
+        ("", ['procedure.approach_angle="45 deg"'], "allowed: (0, 12] deg"),
+        ("", ['conditions.headwind="58 m/s"'], "below the touchdown speed"),
         ("", ['conditions.isa_deviation="10 degC"'], "absolute temperature"),
         ("", ["runway.condition_code=9"], "integer 0..6"),
         ("", ["procedure.use_reverse=true"], "needs an [aircraft.thrust.reverse] table"),
-        ("[conditions]\ntemperature = 290\nisa_deviation = 3\n", [], "not both"),
+        ('[conditions]\ntemperature = "290 K"\nisa_deviation = "3 K"\n', [], "not both"),
         ("[runway2]\nx = 1\n", [], "unknown section"),
         ("[procedure]\nreacton_time = 2\n", [], "did you mean 'procedure.reaction_time'"),
         ("[aircraft.thrust.idle]\nt0 = 1\npoints = [[0, 1]]\n", [], "not both"),
-        ("[aircraft.thrust.idle]\npoints = [[0, 1], [0, 2]]\n", [], "speeds of the points must differ"),
+        ('[aircraft.thrust.idle]\npoints = [["0 kt", "1 kN"], ["0 m/s", "2 kN"]]\n', [], "0 m/s apart"),
         ("[aircraft.thrust.climb]\nt0 = 1\n", [], "unknown thrust setting"),
     ],
 )

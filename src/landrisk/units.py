@@ -1,88 +1,241 @@
 """The one place that reads quantities with units (``"7200 ft"``, ``"15 degC"``), through pint.
 
-A value in a scenario file is either a plain number, taken in the key's own unit (SI, or degrees and
-percent where the key says so), or a string ``"<number> <unit>"`` that pint parses and converts.
-The registry is created once, on first use (it takes a few tenths of a second).
+A physical value in a scenario is written as ``"<number> <unit>"``: a bare number for a key that has a
+unit is refused, because nothing says which unit it was meant in (6 kt or 6 m/s). Pure numbers (ratios,
+coefficients, counts) are written bare.
+
+The text is checked against a strict pattern before pint sees it: an optional sign, digits with an
+optional decimal point and exponent, optional spaces, then an optional unit expression made of unit names,
+``*``, ``/``, ``^`` or ``**`` with a small whole exponent, and ``%`` -- nothing else. The number is read
+by Python's ``float`` and only the unit expression is given to pint, so pint never evaluates arithmetic
+(``"9**9**9 m"``), juxtaposed numbers (``"1 900 m"``) or separators (``"1,900 m"``, ``"1,5 s"``).
+
+The registry is created once, on first use; pint's definition cache (in the user's cache folder) makes
+that about 0.05 s instead of 0.4 s. Where the cache cannot be used the registry is built without it.
 """
 
 from __future__ import annotations
 
 import math
+import re
 from functools import lru_cache
 from typing import Any
 
-__all__ = ["UnitError", "convert", "has_dimension", "to_unit"]
+import numpy as np
+
+__all__ = [
+    "BareNumberError",
+    "UnitError",
+    "check_unit",
+    "convert",
+    "convert_array",
+    "example",
+    "has_dimension",
+    "parse_quantity",
+    "shown_unit",
+    "to_unit",
+]
+
+#: The longest number (in characters) that a quantity may be written with.
+MAX_NUMBER_CHARS = 40
+
+_NUMBER = r"[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]{1,3})?"
+_NAME = r"(?:[A-Za-z_°µΩ][A-Za-z_°µΩ0-9]*|%)"
+_POWER = r"(?:\^|\*\*)[+-]?[1-9]"
+_TERM = rf"{_NAME}(?:[ \t]*{_POWER})?"
+_UNIT = rf"{_TERM}(?:(?:[ \t]*[*/][ \t]*|[ \t]+){_TERM})*"
+_QUANTITY_RE = re.compile(rf"[ \t]*(?P<number>{_NUMBER})[ \t]*(?P<unit>{_UNIT})?[ \t]*", re.ASCII)
+_UNIT_RE = re.compile(rf"[ \t]*{_UNIT}[ \t]*")
+_NUMBER_RE = re.compile(rf"[ \t]*{_NUMBER}[ \t]*", re.ASCII)
+
+_OFFSET_UNITS = ("degree_Celsius", "degree_Fahrenheit", "degree_Rankine", "degree_Reaumur")
+
+#: For the example in the error on a bare number: a unit of the same kind that users often write, and
+#: whether to show it first (the number read in it) or second (the number read in the key's unit).
+_EXAMPLE_UNITS: dict[str, tuple[str, bool]] = {
+    "m": ("ft", True),
+    "m/s": ("kt", True),
+    "kg": ("lb", True),
+    "m**2": ("ft**2", True),
+    "N": ("kN", False),
+    "K": ("degC", False),
+}
 
 
 class UnitError(ValueError):
     """A quantity that cannot be read or converted; the message says why."""
 
 
+class BareNumberError(UnitError):
+    """A number without a unit where the key has a unit; the message gives an example to write."""
+
+
 @lru_cache(maxsize=1)
 def _registry() -> Any:
     import pint
 
-    # Offset units ("15 degC") parse to kelvin only with this option (REFERENCES.md, pint pitfalls).
-    return pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+    # Offset units ("15 degC") parse to kelvin only with this option (pint documentation, "Temperature
+    # conversion").
+    try:
+        ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=":auto:")
+        ureg.parse_units("kt")
+        return ureg
+    except Exception:  # an unwritable or damaged cache folder: build the registry without it
+        return pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
 
 
-_OFFSET_UNITS = ("degree_Celsius", "degree_Fahrenheit", "degree_Rankine", "degree_Reaumur")
+def shown_unit(unit: str) -> str:
+    """A unit as written in messages and examples: ``m^2`` for ``m**2``, ``%`` for ``percent``."""
+    return "%" if unit == "percent" else unit.replace("**", "^")
 
 
-def to_unit(value: Any, unit: str, *, difference: bool = False) -> float:
-    """Read ``value`` as a quantity in ``unit`` and return its magnitude in that unit.
+def _fmt(x: float) -> str:
+    """A number to about 3 significant digits, without an exponent for ordinary magnitudes."""
+    if x == 0 or not math.isfinite(x):
+        return f"{x:g}"
+    if 1e-4 <= abs(x) < 1e15:
+        return np.format_float_positional(float(f"{x:.3g}"), trim="-")
+    return f"{x:.3g}"
 
-    Parameters
-    ----------
-    value : int, float or str
-        A number (already in ``unit``) or a string such as ``"135 kt"``; a string without a unit is a
-        number in ``unit``.
-    unit : str
-        Target unit as a pint expression (``"m/s"``, ``"K"``, ``"deg"``, ``"percent"``); ``""`` for a
-        pure number.
-    difference : bool
-        The quantity is a temperature difference (ISA deviation): ``"10 K"`` or ``"10 delta_degC"``;
-        ``"10 degC"`` would be the absolute temperature 283.15 K and is refused.
+
+def _fmt_given(x: float) -> str:
+    return np.format_float_positional(x, trim="-") if 1e-4 <= abs(x) < 1e15 else f"{x:g}"
+
+
+def example(x: float, unit: str, *, difference: bool = False) -> str:
+    """Text that says how to write the bare number ``x`` with a unit, e.g. ``write "-6 kt" or "-3.09 m/s"``.
+
+    ``unit`` is the key's unit; the example shows ``x`` in a common unit of the same kind and the same
+    quantity in ``unit`` (or the other way round where ``x`` most likely is in the key's unit already).
+    """
+    given = _fmt_given(x)
+    key_unit = shown_unit(unit)
+    alt = _EXAMPLE_UNITS.get(unit)
+    if alt is None or not math.isfinite(x):
+        return f'write "{given} {key_unit}"'
+    other, other_first = alt
+    if difference and other == "degC":
+        other = "delta_degF"
+    try:
+        if other_first:
+            return f'write "{given} {shown_unit(other)}" or "{_fmt(convert(x, other, unit))} {key_unit}"'
+        return f'write "{given} {key_unit}" or "{_fmt(convert(x, unit, other))} {shown_unit(other)}"'
+    except Exception:  # an overflowing conversion: the key's unit alone
+        return f'write "{given} {key_unit}"'
+
+
+def parse_quantity(text: str, unit: str = "m") -> tuple[float, str]:
+    """The number and the unit expression of ``text`` (``""`` if none), checked by the strict pattern.
+
+    ``unit`` is only used in the message, for an example of what to write.
 
     Raises
     ------
     UnitError
-        For text that is not a quantity, an unknown unit, or a unit of the wrong kind.
+        For text that is not a plain number optionally followed by a unit expression, a number written
+        with more than :data:`MAX_NUMBER_CHARS` characters, or a number that is not finite.
     """
+    m = _QUANTITY_RE.fullmatch(text)
+    if m is None:
+        like = f"1.5 {shown_unit(unit)}".strip()
+        raise UnitError(
+            f'is not a number and a unit such as "{like}" (no thousands separators, no spaces inside '
+            "the number, no arithmetic)"
+        )
+    number = m.group("number")
+    if len(number) > MAX_NUMBER_CHARS:
+        raise UnitError(f"the number has more than {MAX_NUMBER_CHARS} characters")
+    x = float(number)
+    if not math.isfinite(x):
+        raise UnitError("the value is not a finite number")
+    return x, (m.group("unit") or "").strip()
+
+
+def check_unit(text: Any) -> Any:
+    """The pint unit of the unit expression ``text`` (``"ft"``, ``"m/s"``); refuses anything else."""
+    if not isinstance(text, str) or _UNIT_RE.fullmatch(text) is None:
+        raise UnitError("is not a unit (write a unit such as m, ft, kt, m/s, kg, lb)")
+    try:
+        return _registry().parse_units(text.strip())
+    except Exception:  # pint raises many kinds for unknown names
+        raise UnitError(f"{text.strip()!r} is not a known unit") from None
+
+
+def _number(value: Any) -> float:
     if isinstance(value, bool):
-        raise UnitError("expected a number or a quantity string, got a boolean")
-    if isinstance(value, int | float):
+        raise UnitError("expected a number or a quantity string, got true/false")
+    try:
         x = float(value)
-    elif isinstance(value, str):
-        x = _parse(value, unit, difference)
-    else:
-        raise UnitError(f"expected a number or a quantity string such as '12 {unit or 'm'}'")
+    except OverflowError:
+        raise UnitError("the number is too large") from None
     if not math.isfinite(x):
         raise UnitError("the value is not a finite number")
     return x
 
 
-def _parse(text: str, unit: str, difference: bool) -> float:
+def to_unit(value: Any, unit: str, *, difference: bool = False, bare: bool | None = None) -> float:
+    """Read ``value`` as a quantity in ``unit`` and return its magnitude in that unit.
+
+    Parameters
+    ----------
+    value : int, float or str
+        A quantity string such as ``"135 kt"``; a plain number (or a string without a unit) only where
+        bare numbers are allowed.
+    unit : str
+        Target unit as a pint expression (``"m/s"``, ``"K"``, ``"deg"``, ``"percent"``); ``""`` for a
+        pure number.
+    difference : bool
+        The quantity is a temperature difference (ISA deviation, a spread): ``"10 K"`` or
+        ``"10 delta_degC"``; ``"10 degC"`` would be the absolute temperature 283.15 K and is refused.
+    bare : bool, optional
+        Whether a number without a unit is accepted (read in ``unit``); by default only for a pure
+        number (``unit == ""``).
+
+    Raises
+    ------
+    BareNumberError
+        For a number without a unit where ``unit`` is not ``""`` (the message gives an example).
+    UnitError
+        For text that is not a quantity, an unknown unit, or a unit of the wrong kind.
+    """
+    if bare is None:
+        bare = unit == ""
+    if isinstance(value, str):
+        x, written = parse_quantity(value, unit)
+        if written:
+            return _convert_written(x, written, unit, difference, value)
+    elif isinstance(value, int | float) and not isinstance(value, bool):
+        x = _number(value)
+    else:
+        wanted = f'a quantity such as "12 {shown_unit(unit)}"' if unit else "a number"
+        raise UnitError(f"expected {wanted}")
+    if not bare:
+        raise BareNumberError(f"a bare number has no unit; {example(x, unit, difference=difference)}")
+    return x
+
+
+def _convert_written(x: float, written: str, unit: str, difference: bool, text: str) -> float:
     import pint
 
-    ureg = _registry()
-    try:
-        q = ureg.Quantity(text.strip())
-    except Exception as exc:  # pint raises many kinds on malformed text
-        raise UnitError(f"cannot read {text!r} as a quantity ({exc})") from None
-    if not isinstance(q, ureg.Quantity):  # a plain number in a string
-        return float(q)
-    if str(q.units) == "dimensionless":  # no unit written: the key's own unit
-        return float(q.magnitude)
-    if difference and str(q.units) in _OFFSET_UNITS:
+    units = check_unit(written)
+    if difference and str(units) in _OFFSET_UNITS:
         raise UnitError(
-            f"{text!r} is an absolute temperature; write a temperature difference as '10 K' or "
-            "'10 delta_degC'"
+            f"{text.strip()!r} is an absolute temperature; write a temperature difference as "
+            "\"10 K\" or \"10 delta_degC\""
         )
     try:
-        return float(q.to(unit or "dimensionless").magnitude)
+        y = float(_registry().Quantity(x, units).to(unit or "dimensionless").magnitude)
     except pint.errors.DimensionalityError:
-        raise UnitError(f"{text!r} has units of {q.dimensionality}, not {unit or 'a pure number'}") from None
+        target = shown_unit(unit) if unit else "a pure number"
+        raise UnitError(f"{text.strip()!r} has units of {_registry().Quantity(1.0, units).dimensionality}, "
+                        f"not {target}") from None
+    except (OverflowError, ArithmeticError):
+        raise UnitError("the value is too large") from None
+    except Exception:  # e.g. offset units inside a compound unit
+        raise UnitError(f"cannot convert {text.strip()!r} to {shown_unit(unit) or 'a pure number'}") from None
+    if not math.isfinite(y):
+        raise UnitError(f"the value is not a finite number in {shown_unit(unit) or 'pure numbers'}")
+    return y
 
 
 def convert(value: float, from_unit: str, to: str) -> float:
@@ -90,12 +243,35 @@ def convert(value: float, from_unit: str, to: str) -> float:
     return float(_registry().Quantity(value, from_unit).to(to).magnitude)
 
 
+def convert_array(values: Any, from_unit: str, to: str, *, difference: bool = False) -> np.ndarray:
+    """Convert an array of magnitudes written in the unit expression ``from_unit`` to ``to``.
+
+    ``from_unit`` is checked like a unit in a scenario (:func:`check_unit`); for a temperature difference
+    an absolute temperature unit (``degC``) is refused.
+    """
+    import pint
+
+    units = check_unit(from_unit)
+    if difference and str(units) in _OFFSET_UNITS:
+        raise UnitError(f"{from_unit!r} is an absolute temperature; a difference is in K or delta_degC")
+    x = np.asarray(values, dtype=float)
+    try:
+        with np.errstate(over="ignore", invalid="ignore"):
+            return np.asarray(_registry().Quantity(x, units).to(to or "dimensionless").magnitude, dtype=float)
+    except pint.errors.DimensionalityError:
+        raise UnitError(f"{from_unit!r} has units of {_registry().Quantity(1.0, units).dimensionality}, "
+                        f"not {shown_unit(to) or 'a pure number'}") from None
+
+
 def has_dimension(value: Any, unit: str) -> bool:
-    """Whether ``value`` is a string quantity with the dimension of ``unit`` (e.g. a pressure)."""
+    """Whether ``value`` is a quantity string whose unit has the dimension of ``unit`` (e.g. a pressure)."""
     if not isinstance(value, str):
         return False
     try:
-        q = _registry().Quantity(value.strip())
-        return bool(q.check(_registry().Quantity(1, unit).dimensionality))
+        _, written = parse_quantity(value)
+        if not written:
+            return False
+        reg = _registry()
+        return bool(reg.Quantity(1.0, check_unit(written)).check(reg.Quantity(1.0, unit).dimensionality))
     except Exception:  # not a quantity at all
         return False

@@ -8,6 +8,7 @@ written and what is allowed. Inputs that are accepted but outside common practic
 from __future__ import annotations
 
 import difflib
+import re
 import tomllib
 import warnings
 from collections.abc import Iterable, Mapping
@@ -22,7 +23,7 @@ from landrisk.io.uncertain import UncertainSet, parse_uncertain
 from landrisk.model import KEYS, Key, Scenario
 from landrisk.model.schema import conflicting_forms, replaced_by
 from landrisk.physics import isa_density, isa_pressure_altitude, stall_speed
-from landrisk.units import UnitError, has_dimension, to_unit
+from landrisk.units import BareNumberError, UnitError, has_dimension, shown_unit, to_unit
 
 __all__ = [
     "DEMO_SOURCE",
@@ -38,6 +39,17 @@ DEMO_SOURCE = "<demo>"
 #: Touchdown speed ratios below this are accepted with a warning (common practice, no source: civil
 #: aircraft touch down at about 1.15 V_S or more).
 TOUCHDOWN_RATIO_PRACTICE = 1.15
+
+#: The largest scenario file read (bytes); scenario files are a few kilobytes.
+MAX_FILE_BYTES = 1 << 20
+#: The deepest nesting of tables and arrays accepted (the deepest the schema uses is 6).
+MAX_DEPTH = 32
+#: The largest whole number accepted anywhere in a file (beyond it a float is no longer exact).
+MAX_INT = 2**53
+#: Thrust points: speeds accepted (m/s) and the smallest spacing between two speeds (m/s). 200 m/s is
+#: 389 kt, above any landing speed; 0.5 m/s is about 1 kt (common practice, no source).
+POINT_SPEED_RANGE = (0.0, 200.0)
+POINT_MIN_SPACING = 0.5
 
 _SECTIONS = ("scenario", "aircraft", "conditions", "runway", "procedure")
 _THRUST_SETTINGS = ("idle", "reverse")
@@ -86,16 +98,17 @@ def parse_study(
     ``--set`` on an uncertain key fixes it at the value given: its distribution is dropped and the key
     is listed in ``UncertainSet.fixed``.
     """
+    raw = _toml(text.removeprefix("\ufeff"), source)
     try:
-        raw = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise ConfigError(f"not valid TOML ({exc})", file=source) from None
+        _check_tree(raw, "")
+    except ConfigError as exc:
+        raise exc.with_file(source) from None
     overrides = tuple(overrides)
     fixed = set()
     for item in overrides:
         key, value = parse_set(item)
         for other in replaced_by(key):  # an override of one form replaces the other form
-            raw.get(other.split(".")[0], {}).pop(other.split(".")[1], None)
+            _drop(raw, other)
         _assign(raw, key, value)
         fixed.add(key)
     origin = {key: "--set" for key in fixed}
@@ -118,13 +131,82 @@ def parse_study(
     return Scenario(values=values, source=source, text=text, overrides=overrides), uncertain
 
 
-def _read(p: Path) -> str:
+def _toml(text: str, source: str) -> dict[str, Any]:
     try:
-        return p.read_text(encoding="utf-8")
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise ConfigError(f"not valid TOML ({_toml_reason(str(exc))})", file=source) from None
+    except RecursionError:
+        raise ConfigError(f"arrays or tables are nested too deeply (more than {MAX_DEPTH} levels)",
+                          file=source) from None
+    except ValueError:  # Python refuses to read a whole number of more than 4 300 digits
+        long = re.search(r"[0-9_]{4000,}", text)
+        line = f" on line {text.count(chr(10), 0, long.start()) + 1}" if long else ""
+        raise ConfigError(f"a number{line} has thousands of digits", file=source) from None
+
+
+def _toml_reason(message: str) -> str:
+    """tomllib's reason and position, without the keys it quotes from the text (the file may be any file)."""
+    if re.search(r"Cannot declare|namespace|Duplicate inline table key", message):
+        where = re.search(r"\((at line \d+, column \d+|at end of document)\)", message)
+        return "a key or table is defined twice" + (f" ({where.group(1)})" if where else "")
+    return message
+
+
+def _check_tree(node: Any, where: str) -> None:
+    """Refuse nesting deeper than MAX_DEPTH and whole numbers too large to be exact (iteratively)."""
+    stack = [(node, where, 0)]
+    while stack:
+        value, path, depth = stack.pop()
+        if depth > MAX_DEPTH:
+            short = path.split("[", 1)[0] + ("[...]" if "[" in path else "")
+            raise ConfigError(f"arrays or tables are nested too deeply (more than {MAX_DEPTH} levels)",
+                              key=short or None)
+        if isinstance(value, dict):
+            for k, v in value.items():
+                name = f'"{k}"' if "." in str(k) else str(k)  # a dotted key inside [uncertain."<key>"]
+                stack.append((v, f"{path}.{name}" if path else name, depth + 1))
+        elif isinstance(value, list):
+            stack.extend((v, f"{path}[{i}]", depth + 1) for i, v in enumerate(value))
+        elif isinstance(value, int) and not isinstance(value, bool) and abs(value) > MAX_INT:
+            digits = len(str(abs(value)))  # at most 4 300: tomllib reads no longer whole numbers
+            raise ConfigError(f"the whole number has {digits} digits, too many to be exact (at most 2^53)",
+                              key=path or None, value=f"{str(value)[:12]}... ({digits} digits)")
+
+
+def _drop(raw: dict[str, Any], key: str) -> None:
+    """Remove ``key``, its uncertain table and the correlations that name it from ``raw``."""
+    section, name = key.split(".", 1)
+    body = raw.get(section)
+    if isinstance(body, dict):
+        body.pop(name, None)
+    tables = raw.get("uncertain")
+    if isinstance(tables, dict) and tables.pop(key, None) is not None:
+        corr = raw.get("correlation")
+        if isinstance(corr, list):
+            raw["correlation"] = [c for c in corr if not (isinstance(c, dict) and isinstance(
+                c.get("between"), list) and key in c["between"])]
+
+
+def _read(p: Path) -> str:
+    """The text of a scenario file: at most MAX_FILE_BYTES, UTF-8 with or without a byte-order mark."""
+    try:
+        with p.open("rb") as f:
+            data = f.read(MAX_FILE_BYTES + 1)
     except FileNotFoundError:
         raise ConfigError("no such file", file=str(p)) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise ConfigError(f"cannot read the file ({exc})", file=str(p)) from None
+    except IsADirectoryError:
+        raise ConfigError("is a folder, not a scenario file", file=str(p)) from None
+    except OSError as exc:
+        reason = exc.strerror or type(exc).__name__
+        raise ConfigError(f"cannot read the file ({reason})", file=str(p)) from None
+    if len(data) > MAX_FILE_BYTES:
+        raise ConfigError(f"is larger than {MAX_FILE_BYTES >> 20} MiB; a scenario file is a few KiB of "
+                          "TOML", file=str(p))
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise ConfigError(f"is not UTF-8 text (byte {exc.start + 1} cannot be read)", file=str(p)) from None
 
 
 def parse_set(item: str) -> tuple[str, Any]:
@@ -140,6 +222,16 @@ def parse_set(item: str) -> tuple[str, Any]:
         parsed = tomllib.loads(f"v = {value}")["v"]
     except tomllib.TOMLDecodeError:
         parsed = value.strip()  # e.g. --set runway.lda="6500 ft" after the shell removed the quotes
+    except RecursionError:
+        raise ConfigError(f"nested too deeply (more than {MAX_DEPTH} levels)", key=key,
+                          file="--set") from None
+    except ValueError:  # a whole number of more than 4 300 digits
+        raise ConfigError("the number has thousands of digits", key=key, file="--set") from None
+    try:
+        _check_tree(parsed, key)
+    except ConfigError as exc:
+        shown = exc.value if exc.value is not None else value.strip()[:60]
+        raise ConfigError(exc.reason, key=key, value=shown, file="--set") from None
     return key, parsed
 
 
@@ -213,27 +305,58 @@ def _flatten_thrust(table: Any) -> dict[str, Any]:
 
 
 def _fit_points(points: Any, key: str) -> dict[str, float]:
-    """Least-squares fit of T = t0 + t1 V + t2 V^2 through [[V, T], ...] (degree below 2 for < 3 points)."""
-    if not isinstance(points, list) or not points or not all(
+    """Least-squares fit of T = t0 + t1 V + t2 V^2 through [[V, T], ...] (degree below 2 for < 3 points).
+
+    The speeds must lie in POINT_SPEED_RANGE and differ by POINT_MIN_SPACING at least, and the fitted
+    coefficients must lie in their keys' allowed ranges; otherwise the fit is refused, naming the key.
+    """
+    example = 'e.g. [["0 kt", "-60 kN"], ["100 kt", "-70 kN"]]'
+    if not isinstance(points, list) or not points or len(points) > 100 or not all(
         isinstance(p, list) and len(p) == 2 for p in points
     ):
-        raise ConfigError("must be a list of [speed, thrust] pairs", key=key, value=points,
-                          allowed='e.g. [["0 kt", "-60 kN"], ["100 kt", "-70 kN"]]')
+        raise ConfigError("must be a list of [speed, thrust] pairs (at most 100)", key=key, value=points,
+                          allowed=example)
     try:
         v = np.array([to_unit(p[0], "m/s") for p in points])
+    except UnitError as exc:
+        raise ConfigError(f"a speed: {exc}", key=key, value=points, allowed=example) from None
+    try:
         t = np.array([to_unit(p[1], "N") for p in points])
     except UnitError as exc:
-        raise ConfigError(str(exc), key=key, value=points) from None
-    if len(np.unique(v)) != len(v):
-        raise ConfigError("the speeds of the points must differ", key=key, value=points)
+        raise ConfigError(f"a thrust: {exc}", key=key, value=points, allowed=example) from None
+    lo, hi = POINT_SPEED_RANGE
+    if np.any(v < lo) or np.any(v > hi):
+        raise ConfigError(f"a speed of {v[(v < lo) | (v > hi)][0]:g} m/s is outside the range of the points",
+                          key=key, value=points, allowed=f"speeds in [{lo:g}, {hi:g}] m/s")
+    t_spec = KEYS[f"{key.rsplit('.', 1)[0]}.t0"]
+    if np.any(np.abs(t) > t_spec.hi):
+        raise ConfigError(f"a thrust of {t[np.abs(t) > t_spec.hi][0]:g} N is outside the range of the points",
+                          key=key, value=points, allowed=f"thrusts in {t_spec.allowed()}")
+    gaps = np.diff(np.sort(v))
+    if gaps.size and gaps.min() < POINT_MIN_SPACING:
+        raise ConfigError(f"two speeds are {gaps.min():.3g} m/s apart; the fit needs speeds at least "
+                          f"{POINT_MIN_SPACING:g} m/s (about 1 kt) apart", key=key, value=points)
     deg = min(2, len(v) - 1)
-    c = np.polynomial.polynomial.polyfit(v, t, deg)
+    try:
+        c = np.polynomial.polynomial.polyfit(v, t, deg)
+    except (np.linalg.LinAlgError, ValueError):
+        raise ConfigError("the points cannot be fitted", key=key, value=points) from None
     c = np.concatenate([c, np.zeros(3 - len(c))])
-    return {"t0": float(c[0]), "t1": float(c[1]), "t2": float(c[2])}
+    fitted = {"t0": float(c[0]), "t1": float(c[1]), "t2": float(c[2])}
+    for name, x in fitted.items():
+        spec = KEYS[f"{key.rsplit('.', 1)[0]}.{name}"]
+        if not spec.contains(x):
+            raise ConfigError(f"the fit gives {name} = {x:.4g} {shown_unit(spec.unit)}, outside its allowed "
+                              "range; check the points or give t0, t1, t2", key=key, value=points,
+                              allowed=f"{name} in {_allowed(spec)}")
+    return fitted
 
 
 def _quantity(spec: Key, value: Any) -> float:
     try:
+        if spec.kind == "quantity" and isinstance(value, int) and not isinstance(value, bool) and \
+                abs(value) > MAX_INT:
+            raise UnitError("the number is too large")
         if spec.name == "conditions.pressure_altitude" and has_dimension(value, "Pa"):
             # A station pressure (QFE) instead of an altitude: its ISA pressure altitude.
             p = to_unit(value, "Pa")
@@ -243,13 +366,21 @@ def _quantity(spec: Key, value: Any) -> float:
                 raise UnitError(f"pressure {p:g} Pa is outside the standard atmosphere's range") from None
         else:
             x = to_unit(value, spec.unit, difference=spec.name == "conditions.isa_deviation")
+    except BareNumberError as exc:
+        raise ConfigError(str(exc), key=spec.name, value=value) from None
     except UnitError as exc:
-        raise ConfigError(str(exc), key=spec.name, value=value, allowed=spec.allowed()) from None
+        raise ConfigError(str(exc), key=spec.name, value=value, allowed=_allowed(spec)) from None
     if not spec.contains(x):
-        shown = f" (= {x:g} {spec.unit})" if isinstance(value, str) else ""
+        shown = f" (= {x:g} {shown_unit(spec.unit)})".replace(" )", ")") if isinstance(value, str) else ""
         raise ConfigError(f"outside the allowed range{shown}", key=spec.name, value=value,
-                          allowed=spec.allowed())
+                          allowed=_allowed(spec))
     return x
+
+
+def _allowed(spec: Key) -> str:
+    """The key's allowed range with its unit as users write it (``m^2``, ``%``)."""
+    text = spec.allowed()
+    return text[: -len(spec.unit)] + shown_unit(spec.unit) if spec.unit and text.endswith(spec.unit) else text
 
 
 def _typed(spec: Key, value: Any) -> Any:
@@ -273,7 +404,10 @@ def _values(
     raw: Mapping[str, Any], source: str, origin: Mapping[str, str], optional: set[str]
 ) -> tuple[dict[str, Any], dict[str, Any]]:
     """Every key's value (``optional``: required keys that may be missing, being uncertain)."""
-    flat = _flatten(raw)
+    try:
+        flat = _flatten(raw)
+    except ConfigError as exc:  # a thrust coefficient given by --set is checked here
+        raise (exc.with_file(f"{source} (--set)") if exc.key in origin else exc) from None
     values: dict[str, Any] = {}
     for name, spec in KEYS.items():
         where = origin.get(name)

@@ -13,15 +13,18 @@ between = ["procedure.touchdown_distance", "procedure.touchdown_speed_ratio"]
 spearman = 0.3
 ```
 
-Location parameters (mean, median, mode, lower, upper, scale, shift, values, data) are quantities in the
-key's unit; ``sd`` is a difference in that unit; sigma_log, alpha, beta, shape and probabilities are pure
-numbers. An empirical distribution reads ``column`` of the CSV ``file`` (relative to the scenario file),
-its numbers in ``unit`` (default: the key's unit).
+Location parameters (mean, median, mode, lower, upper, scale, shift, values) and the spread ``sd`` of a
+key with a unit are quantities written with a unit (``"6 kt"``; a bare number is refused); for a pure key
+they are bare numbers. sigma_log, alpha, beta, shape and probabilities are always pure numbers. An
+empirical distribution reads ``column`` of the CSV ``file`` (relative to the scenario file); for a key
+with a unit, ``unit`` names the unit of the column's numbers (required). Every cell of the column must be
+a finite number.
 """
 
 from __future__ import annotations
 
 import math
+import re
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -32,7 +35,7 @@ import numpy as np
 from landrisk.errors import ConfigError
 from landrisk.model import KEYS, Key
 from landrisk.model.schema import conflicting_forms
-from landrisk.units import UnitError, to_unit
+from landrisk.units import BareNumberError, UnitError, convert_array, shown_unit, to_unit
 from landrisk.uq import FAMILIES, Marginal, Problem, make_marginal
 
 __all__ = ["UncertainInput", "UncertainSet", "parse_uncertain"]
@@ -151,8 +154,11 @@ def _one(spec: Key, body: dict[str, Any], base_dir: Path | None) -> UncertainInp
             continue
         try:
             params[name] = _param(spec, family, name, raw)
-        except UnitError as exc:
+        except BareNumberError as exc:
             raise ConfigError(str(exc), key=f"{where}.{name}", value=raw) from None
+        except UnitError as exc:
+            allowed = spec.allowed() if name in _LOCATION or name == "values" else None
+            raise ConfigError(str(exc), key=f"{where}.{name}", value=raw, allowed=allowed) from None
     if family == "empirical":
         params["data"] = _read_column(spec, body, base_dir, where)
     elif {"file", "column"} & set(body):
@@ -181,7 +187,13 @@ def _param(spec: Key, family: str, name: str, raw: Any) -> Any:
             if not all(isinstance(v, int) and not isinstance(v, bool) for v in raw):
                 raise UnitError("must be a list of whole numbers")
             return [float(v) for v in raw]
-        return [_quantity(spec, v) for v in raw]
+        out = []
+        for i, v in enumerate(raw):
+            try:
+                out.append(_quantity(spec, v))
+            except UnitError as exc:
+                raise type(exc)(f"value {i + 1}: {exc}") from None
+        return out
     if name == "probabilities":
         if not isinstance(raw, list) or not all(isinstance(v, int | float) and not isinstance(v, bool)
                                                 for v in raw):
@@ -198,35 +210,93 @@ def _param(spec: Key, family: str, name: str, raw: Any) -> Any:
 
 
 def _quantity(spec: Key, raw: Any) -> float:
-    return to_unit(raw, spec.unit)
+    return to_unit(raw, spec.unit, difference=spec.name == "conditions.isa_deviation")
+
+
+#: The largest CSV file an empirical input reads (bytes).
+MAX_CSV_BYTES = 64 << 20
 
 
 def _read_column(spec: Key, body: dict[str, Any], base_dir: Path | None, where: str) -> list[float]:
+    """The numbers of ``column`` in the CSV ``file``, converted from ``unit`` to the key's unit.
+
+    Messages name the file, the column and line numbers, never the file's contents (the file may be
+    anything the user pointed at).
+    """
+    import io
+
     import pandas as pd
 
     file, column = body.get("file"), body.get("column")
     if not isinstance(file, str) or not isinstance(column, str):
         raise ConfigError("an empirical distribution needs file and column (text)", key=where)
+    unit = body.get("unit")
+    if unit is None and spec.unit:
+        raise ConfigError(f"an empirical column of {spec.name} needs the unit of its numbers, e.g. "
+                          f'unit = "{shown_unit(spec.unit)}"', key=f"{where}.unit")
+    if unit is not None:
+        try:
+            convert_array([], unit, spec.unit, difference=spec.name == "conditions.isa_deviation")
+        except UnitError as exc:
+            raise ConfigError(str(exc), key=f"{where}.unit", value=unit,
+                              allowed=f"a unit of the kind of {shown_unit(spec.unit) or 'a pure number'}") \
+                from None
     path = Path(file) if Path(file).is_absolute() or base_dir is None else base_dir / file
+    text = _csv_text(path, f"{where}.file")
     try:
-        frame = pd.read_csv(path, comment="#")
-    except FileNotFoundError:
-        raise ConfigError("no such file", key=f"{where}.file", value=str(path)) from None
-    except Exception as exc:  # pandas raises many kinds for unreadable files
-        raise ConfigError(f"cannot read the CSV file ({exc})", key=f"{where}.file", value=str(path)) from None
+        frame = pd.read_csv(io.StringIO(text), comment="#", dtype=str, keep_default_na=False)
+    except Exception as exc:  # pandas raises many kinds; their messages may quote the file
+        line = re.search(r"fields in line ([0-9]+)", str(exc))
+        reason = f"line {line.group(1)} has more fields than the header" if line else type(exc).__name__
+        raise ConfigError(f"cannot read it as a CSV table ({reason})", key=f"{where}.file",
+                          value=str(path)) from None
     if column not in frame.columns:
-        raise ConfigError("no such column", key=f"{where}.column", value=column,
-                          allowed=", ".join(map(str, frame.columns)))
-    data = pd.to_numeric(frame[column], errors="coerce").dropna().to_numpy(dtype=float)
-    if data.size < 2:
+        raise ConfigError(f"no such column (the file has {len(frame.columns)} columns)",
+                          key=f"{where}.column", value=column)
+    cells = frame[column]
+    if isinstance(cells, pd.DataFrame):
+        raise ConfigError("the file has more than one column of that name", key=f"{where}.column",
+                          value=column)
+    numbers = pd.to_numeric(cells.str.strip(), errors="coerce").to_numpy(dtype=float)
+    bad = ~np.isfinite(numbers)
+    if bad.any():
+        first = int(np.flatnonzero(bad)[0])
+        raise ConfigError(f"{int(bad.sum())} of {bad.size} cells are empty or not finite numbers (the first "
+                          f"on {_line_of(text, first, len(frame))})", key=f"{where}.column", value=column)
+    if numbers.size < 2:
         raise ConfigError("the column holds fewer than two numbers", key=f"{where}.column", value=column)
-    unit = body.get("unit", spec.unit)
+    if unit is None:
+        return [float(x) for x in numbers]
+    data = convert_array(numbers, unit, spec.unit, difference=spec.name == "conditions.isa_deviation")
+    if not np.all(np.isfinite(data)):
+        raise ConfigError(f"some numbers are too large in {shown_unit(spec.unit)}", key=f"{where}.column",
+                          value=column)
+    return [float(x) for x in data]
+
+
+def _csv_text(path: Path, key: str) -> str:
     try:
-        factor = to_unit(f"1 {unit}", spec.unit) if unit and unit != spec.unit else 1.0
-        offset = to_unit(f"0 {unit}", spec.unit) if unit and unit != spec.unit else 0.0
-    except UnitError as exc:
-        raise ConfigError(str(exc), key=f"{where}.unit", value=unit) from None
-    return list(data * (factor - offset) + offset)
+        if not path.is_file():
+            reason = "no such file" if not path.exists() else "is not a regular file"
+            raise ConfigError(reason, key=key, value=str(path))
+        if path.stat().st_size > MAX_CSV_BYTES:
+            raise ConfigError(f"the file is larger than {MAX_CSV_BYTES >> 20} MiB", key=key, value=str(path))
+        data = path.read_bytes()
+    except OSError as exc:
+        raise ConfigError(f"cannot read the file ({exc.strerror or type(exc).__name__})", key=key,
+                          value=str(path)) from None
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        raise ConfigError("is not UTF-8 text", key=key, value=str(path)) from None
+
+
+def _line_of(text: str, row: int, rows: int) -> str:
+    """The line of the file that holds data row ``row`` (0-based), skipping comment and blank lines."""
+    lines = [i + 1 for i, line in enumerate(text.splitlines()) if line.split("#", 1)[0].strip()]
+    if len(lines) == rows + 1:  # header + one line per row: the mapping is exact
+        return f"line {lines[row + 1]}"
+    return f"data row {row + 1}"
 
 
 def _check_support(spec: Key, m: Marginal, where: str) -> None:

@@ -3,8 +3,9 @@
 This table is the one description of the scenario file. The reader (``landrisk.io``) parses and checks
 values against it, the starter file is written from it, ``--set`` and the uncertain-input tables address
 its keys, and the solver's adapter reads the values it names. Values are held in the key's unit below: SI
-for every physical quantity, except ``procedure.approach_angle`` (degrees) and ``runway.slope`` (percent),
-which are written that way in the file too.
+for every physical quantity, except ``procedure.approach_angle`` (degrees) and ``runway.slope`` (percent).
+In the file a key with a unit is written with one (``"7200 ft"``, ``"3 deg"``, ``"-0.3 %"``); a key
+without a unit takes a bare number.
 """
 
 from __future__ import annotations
@@ -29,8 +30,8 @@ class Key:
     name : str
         Dotted path, e.g. ``"runway.lda"``.
     unit : str
-        Unit of the stored value and of a bare number in the file (a unit-library expression, or ``""``
-        for a pure number). Strings such as ``"7200 ft"`` are converted to it.
+        Unit of the stored value (a unit-library expression, or ``""`` for a pure number, the only kind
+        written as a bare number). Quantities such as ``"7200 ft"`` are converted to it.
     default : Any
         Value used when the key is absent; ``None`` with ``required=False`` means "not given".
     lo, hi : float
@@ -247,7 +248,7 @@ def conflicting_forms(present: set[str]) -> tuple[Alternative, str, str] | None:
 
 def keys_markdown() -> str:
     """The table of every key as Markdown, as shown in the README."""
-    rows = ["| key | unit of a bare number | default | allowed | meaning |", "|---|---|---|---|---|"]
+    rows = ["| key | unit (written with the value) | default | allowed | meaning |", "|---|---|---|---|---|"]
     for k in _KEYS:
         shown = "—" if k.default is None else repr(k.default).replace("'", '"')
         default = "required" if k.required else shown

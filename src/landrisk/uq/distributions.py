@@ -160,11 +160,19 @@ class Marginal:
         b = (upper - mu) / sd
         if math.isinf(a) and math.isinf(b):
             return mu + sd * special.ndtri(u)
-        # Work in the tail nearer to the interval, where Phi keeps its precision (Phi(-z) = 1 - Phi(z)).
-        if a > 0:
-            pa, pb = special.ndtr(-b), special.ndtr(-a)
-            z = -special.ndtri(pb - u * (pb - pa))
-        else:
+        # An interval wholly in one tail is mirrored into the lower tail and inverted in log space,
+        # x = Phi^-1(Phi(a) + u (Phi(b) - Phi(a))) with log Phi from log_ndtr and Phi^-1(exp(.)) from
+        # ndtri_exp, so that it stays exact however far out the interval lies (Phi(-40) underflows).
+        if a > 0 or b <= 0:
+            sign = -1.0 if a > 0 else 1.0
+            lo_z, hi_z = (-b, -a) if a > 0 else (a, b)
+            la, lb = special.log_ndtr(lo_z), special.log_ndtr(hi_z)
+            r = math.exp(la - lb)  # Phi(lo_z) / Phi(hi_z), in [0, 1)
+            # Mirrored, the quantile u of the interval is the quantile 1 - u of its mirror image.
+            share = np.log1p(-u * (1.0 - r)) if a > 0 else np.log(r + u * (1.0 - r))
+            with np.errstate(divide="ignore"):
+                z = sign * np.clip(special.ndtri_exp(lb + share), lo_z, hi_z)
+        else:  # the interval holds the mean: Phi keeps its precision on both sides
             pa, pb = special.ndtr(a), special.ndtr(b)
             z = special.ndtri(pa + u * (pb - pa))
         return np.clip(mu + sd * z, lower, upper)
