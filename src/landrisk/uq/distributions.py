@@ -23,7 +23,18 @@ from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy import special
+
+
+class _Special:
+    """scipy.special, imported on first use: reading a scenario checks distributions but samples none."""
+
+    def __getattr__(self, name: str) -> Any:
+        from scipy import special as module
+
+        return getattr(module, name)
+
+
+special = _Special()
 
 __all__ = [
     "FAMILIES",
