@@ -17,6 +17,7 @@ from landrisk.uq.sampling import SAMPLERS, normalize_seed, uniform_chunks
 from landrisk.uq.sensitivity import MonteCarloSobol, sobol_monte_carlo
 from landrisk.uq.stats import (
     EventProbability,
+    Moments,
     Percentile,
     convergence,
     event_probability,
@@ -24,6 +25,7 @@ from landrisk.uq.stats import (
     mean_interval,
     percentiles,
     wilson_interval,
+    zero_event_bound,
 )
 
 __all__ = [
@@ -33,6 +35,7 @@ __all__ = [
     "ChaosSpace",
     "EventProbability",
     "Marginal",
+    "Moments",
     "MonteCarloRun",
     "MonteCarloSobol",
     "Percentile",
@@ -53,4 +56,5 @@ __all__ = [
     "sobol_monte_carlo",
     "uniform_chunks",
     "wilson_interval",
+    "zero_event_bound",
 ]
