@@ -24,7 +24,7 @@ __all__ = ["BEYOND", "ascii_text", "render_assess", "render_rank", "render_rare"
 #: How a percentile of the distance that lies among the landings that cannot stop is shown.
 BEYOND = "beyond any runway"
 
-_ASCII = {"°": " deg", "μ": "mu", "µ": "mu", "≥": ">=", "≤": "<=", "≈": "~", "±": "+/-", "×": "x",
+_ASCII = {"°": "deg", "μ": "mu", "µ": "mu", "≥": ">=", "≤": "<=", "≈": "~", "±": "+/-", "×": "x",
           "−": "-", "–": "-", "—": "-", "‘": "'", "’": "'", "“": '"', "”": '"', "…": "...", "²": "^2",
           "³": "^3", "·": ".", "\u00a0": " ", "\u2009": " ", "\u202f": " ", "→": "->"}
 
@@ -178,18 +178,20 @@ def _distance_rows(a: Assessment, sh: _Show, conf: str) -> list[str]:
         return (f"{x:9.1f} {convert(x, 'm', 'ft'):10.0f}" if sh.both else f"{sh.du.length(x):9.1f}")
 
     pad = 20 if sh.both else 9
-    stop_note = f" (of the {mom.used:,} landings that stop)" if a.cannot_stop else ""
+    if a.cannot_stop:
+        lines.append(f"  (mean and standard deviation of the {mom.used:,} landings that stop; "
+                     f"{a.cannot_stop:,} of {a.n:,} cannot stop)")
     if mom.mean is None:
         lines.append(f"  {'mean':<44}cannot be estimated: no landing stops")
     else:
         ci = (f"   [{sh.du.length(mom.lo):.1f}, {sh.du.length(mom.hi):.1f}]"
               if mom.lo is not None and mom.hi is not None else "")
-        lines.append(f"  {'mean' + stop_note:<44}{value(mom.mean)}{ci}")
+        lines.append(f"  {'mean':<44}{value(mom.mean)}{ci}")
     if mom.sd is None:
-        lines.append(f"  {'standard deviation':<44}cannot be estimated from {mom.used} landing(s) that "
-                     "stop (needs 2); nor can the interval of the mean")
+        lines.append(f"  {'standard deviation':<44}cannot be estimated from {mom.used} landing (needs 2),")
+        lines.append(f"  {'':<44}nor can the interval of the mean")
     else:
-        lines.append(f"  {'standard deviation' + stop_note:<44}{value(mom.sd)}")
+        lines.append(f"  {'standard deviation':<44}{value(mom.sd)}")
     for p in a.percentiles["total_m"]:
         if p.infinite:
             lines.append(f"  {_pct_label(p.p):<44}{BEYOND:>{pad}}   (a landing that cannot stop)")
