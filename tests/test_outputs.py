@@ -323,3 +323,25 @@ def test_dry_runway_factors_use_the_deterministic_distance() -> None:
     assert a.dry_basis_note == "" and a.nominal_note == ""
     assert [c.distance_m for c in a.comparisons] == pytest.approx(
         [total, total / 0.6, 1.15 * total / 0.6, 1.15 * total], rel=1e-12)
+
+
+# --- results that show themselves -------------------------------------------------------------------
+
+def test_results_objects_show_a_few_lines() -> None:
+    scenario, uncertain = api.load_study()
+    a = api.assess(scenario, uncertain, samples=2000, seed=1)
+    r = api.rank(scenario, uncertain, method="pce", calls=300, mc_check=0)
+    rare = api.rare(scenario, uncertain, method="form", risk_curve=False)
+    for obj, kind in ((a, "Assessment"), (r, "Ranking"), (rare, "RareAssessment")):
+        text = repr(obj)
+        assert text.startswith(f"<{kind}: scenario 'demo'") and len(text) < 600 and text.count("\n") <= 5
+        assert obj._repr_html_().startswith(f"<div><strong>{kind}</strong>")
+    assert "P(overrun)" in repr(a) and "2,000 samples" in repr(a)
+    assert api.percentile_table(a).attrs["caution"] == CAUTION
+    assert api.rank_table(r).attrs["caution"] == CAUTION
+
+
+def test_init_file_carries_the_caution(tmp_path: Path) -> None:
+    path = tmp_path / "start.toml"
+    assert run("init", str(path)).exit_code == 0
+    assert CAUTION in path.read_text(encoding="utf-8")

@@ -142,9 +142,12 @@ def solve_many(scenario: Scenario, values: Mapping[str, ArrayLike]) -> pd.DataFr
 
 def write_starter(path: str | Path, force: bool = False) -> Path:
     """Write a commented starter scenario (the invented demo, every key explained) to ``path``."""
+    from landrisk import CAUTION
+
     header = (
         "# Starter scenario written by `landrisk init`: a copy of the invented demo. Replace every value\n"
         "# with your own data; see the README for the meaning, unit and range of each key.\n"
+        f"# {CAUTION}\n"
     )
     return write_text_new(Path(path), header + demo_text(), force=force)
 

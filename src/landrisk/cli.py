@@ -168,23 +168,24 @@ def assess(config: str | None, samples: int, seed: int, sampler: str, method: st
     shown = api.display_units(scenario, units)
     if method != "mc":
         rare = api.rare(scenario, uncertain, method=method, seed=seed)
-        written = ([str(p) for p in api.write_rare(rare, out_dir, force=force, units=shown)]
-                   if out_dir else None)
+        rare_written = ([str(p) for p in api.write_rare(rare, out_dir, force=force, units=shown)]
+                        if out_dir else None)
         if as_json:
             _echo(api.dumps(api.rare_record(rare)))
         else:
-            _echo(report.render_rare(rare, written))
+            _echo(report.render_rare(rare, rare_written))
         return
     bar = _ProgressBar(not quiet)
-    options = {"samples": samples, "seed": seed, "sampler": sampler, "progress": bar}
+    options: dict[str, Any] = {"samples": samples, "seed": seed, "sampler": sampler, "progress": bar}
+    written: list[str] | None = None
     try:
         if out_dir:
             result, paths = api.assess_into(scenario, uncertain, out_dir, force=force,
                                             save_samples=save_samples, samples_format=samples_format,
                                             units=shown, **options)
-            written: list[str] | None = [str(p) for p in paths]
+            written = [str(p) for p in paths]
         else:
-            result, written = api.assess(scenario, uncertain, **options), None
+            result = api.assess(scenario, uncertain, **options)
     finally:
         bar.close()
     if as_json:

@@ -33,6 +33,7 @@ from landrisk.export.tables import (
 )
 from landrisk.io.output import StagedFolder
 from landrisk.studies import Assessment, Ranking, RareAssessment
+from landrisk.units import DisplayUnits
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -202,7 +203,8 @@ def _assess_figures(figures: bool, units: Units) -> dict[str, Callable[[Any], An
 
     from landrisk.plotting import FIGURES
 
-    return {k: partial(f, units=units) for k, f in FIGURES.items()}
+    system = units.system if isinstance(units, DisplayUnits) else units
+    return {k: partial(f, units=system) for k, f in FIGURES.items()}
 
 
 def write_assessment(a: Assessment, folder: str | Path, *, force: bool = False, figures: bool = True,

@@ -31,6 +31,7 @@ from numpy.typing import NDArray
 from landrisk.errors import LandriskError, SolveError
 from landrisk.model import KEYS, Scenario, solve_landings
 from landrisk.physics import CONDITION_CODE_TABLE
+from landrisk.studies import shown
 from landrisk.studies.binding import landing_model
 from landrisk.uq import (
     EventProbability,
@@ -152,6 +153,12 @@ class Assessment:
     def sorted_total(self) -> NDArray[np.float64]:
         """The total distances in ascending order."""
         return np.sort(self.outputs["total_m"])
+
+    def __repr__(self) -> str:
+        return shown.repr_of("Assessment", shown.assessment_lines(self))
+
+    def _repr_html_(self) -> str:
+        return shown.html_of("Assessment", shown.assessment_lines(self))
 
 
 def assess(
