@@ -330,7 +330,10 @@ def test_dry_runway_factors_use_the_deterministic_distance() -> None:
 def test_results_objects_show_a_few_lines() -> None:
     scenario, uncertain = api.load_study()
     a = api.assess(scenario, uncertain, samples=2000, seed=1)
-    r = api.rank(scenario, uncertain, method="pce", calls=300, mc_check=0)
+    from landrisk.studies import RankSettings, rank
+
+    r = rank(scenario, uncertain.problem(), RankSettings(calls=300, mc_check=0, surrogate_samples=20_000,
+                                                         tail_checks=50, risk_samples=1024))
     rare = api.rare(scenario, uncertain, method="form", risk_curve=False)
     for obj, kind in ((a, "Assessment"), (r, "Ranking"), (rare, "RareAssessment")):
         text = repr(obj)

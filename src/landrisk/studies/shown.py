@@ -60,7 +60,11 @@ def ranking_lines(r: Any) -> list[str]:
 
 def rare_lines(r: Any) -> list[str]:
     """A rare-event assessment in a few lines: method, estimate (or why none), cost."""
-    estimate = (f"P(overrun) {r.probability:.3e} [{r.ci[0]:.2e}, {r.ci[1]:.2e}]" if r.converged
-                else "no estimate: the method did not converge")
+    if not r.converged:
+        estimate = "no estimate: the method did not converge"
+    elif r.method == "form":
+        estimate = f"P(overrun) ~ Phi(-beta) = {r.probability:.3e} (FORM: no sampling interval)"
+    else:
+        estimate = f"P(overrun) {r.probability:.3e} [{r.ci[0]:.2e}, {r.ci[1]:.2e}]"
     return [f"{_scenario(r.scenario)}, method {r.method}, {r.calls:,} solver calls, seed {r.settings.seed}",
             estimate]
