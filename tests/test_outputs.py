@@ -348,3 +348,17 @@ def test_init_file_carries_the_caution(tmp_path: Path) -> None:
     path = tmp_path / "start.toml"
     assert run("init", str(path)).exit_code == 0
     assert CAUTION in path.read_text(encoding="utf-8")
+
+
+def test_no_landing_stops(tmp_path: Path) -> None:
+    scenario, uncertain = api.load_study(None, ["runway.slope=-20", 'aircraft.thrust.idle.t0="150 kN"',
+                                                "procedure.use_reverse=false"])
+    with pytest.warns(UserWarning, match="use_reverse is fixed"):
+        a, _ = api.assess_into(scenario, uncertain, tmp_path / "out", samples=100, seed=1)
+    assert a.cannot_stop == 100 and a.p_overrun.events == 100 and a.comparisons == []
+    data = strict_json((tmp_path / "out" / "summary.json").read_text(encoding="utf-8"))
+    assert data["mean_m"] is None and data["sd_m"] is None and data["nominal_total_m"] is None
+    assert data["nominal_cannot_stop"] is True and "non_finite_values" not in data
+    text = render_assess(a)
+    assert "cannot be estimated: no landing stops" in text and "nan" not in text.lower()
+    assert pd.read_csv(tmp_path / "out" / "percentiles.csv")["beyond_any_runway"].dtype == bool

@@ -101,7 +101,11 @@ def histogram_figure(a: Assessment, units: str | None = None) -> Figure:
     lu = du.unit("length")
     total = a.outputs["total_m"]
     fig, ax = plt.subplots(figsize=(8, 4.8))
-    ax.hist(du.length(total[np.isfinite(total)]), bins=120, density=True, alpha=0.8)
+    stops = total[np.isfinite(total)]
+    if stops.size:
+        ax.hist(du.length(stops), bins=120, density=True, alpha=0.8)
+    else:
+        ax.text(0.5, 0.5, "no landing stops", transform=ax.transAxes, ha="center")
     ax.axvline(du.length(a.lda_m), color="black", lw=2, label=f"LDA {du.length(a.lda_m):.0f} {lu}")
     if np.isfinite(a.nominal_total_m):
         d = du.length(a.nominal_total_m)

@@ -178,7 +178,7 @@ def _distance_rows(a: Assessment, sh: _Show, conf: str) -> list[str]:
         return (f"{x:9.1f} {convert(x, 'm', 'ft'):10.0f}" if sh.both else f"{sh.du.length(x):9.1f}")
 
     pad = 20 if sh.both else 9
-    if a.cannot_stop:
+    if a.cannot_stop and mom.used:
         lines.append(f"  (mean and standard deviation of the {mom.used:,} landings that stop; "
                      f"{a.cannot_stop:,} of {a.n:,} cannot stop)")
     if mom.mean is None:
@@ -187,7 +187,9 @@ def _distance_rows(a: Assessment, sh: _Show, conf: str) -> list[str]:
         ci = (f"   [{sh.du.length(mom.lo):.1f}, {sh.du.length(mom.hi):.1f}]"
               if mom.lo is not None and mom.hi is not None else "")
         lines.append(f"  {'mean':<44}{value(mom.mean)}{ci}")
-    if mom.sd is None:
+    if mom.mean is None:
+        lines.append(f"  {'standard deviation':<44}cannot be estimated: no landing stops")
+    elif mom.sd is None:
         lines.append(f"  {'standard deviation':<44}cannot be estimated from {mom.used} landing (needs 2),")
         lines.append(f"  {'':<44}nor can the interval of the mean")
     else:
@@ -264,7 +266,9 @@ def render_assess(a: Assessment, written: list[str] | None = None, units: str | 
     for name in ("air_distance_m", "free_roll_m", "braking_m"):
         by = {p.p: p for p in a.percentiles[name]}
         label = f"  {name.removesuffix('_m').replace('_', ' '):<20}"
-        if by[99.0].infinite and by[50.0].value is not None:
+        if by[50.0].infinite:
+            lines.append(f"{label}{BEYOND} / {BEYOND}")
+        elif by[99.0].infinite and by[50.0].value is not None:
             lines.append(f"{label}{sh.du.length(by[50.0].value):8.1f} / {BEYOND}")
         elif by[99.0].supported and by[50.0].value is not None and by[99.0].value is not None:
             p50, p99 = sh.du.length(by[50.0].value), sh.du.length(by[99.0].value)
