@@ -8,7 +8,6 @@ neither set are kept. A run stopped by SIGTERM or an error removes its staging f
 
 from __future__ import annotations
 
-import json
 import os
 import shutil
 import signal
@@ -22,7 +21,7 @@ from typing import Any
 
 from landrisk.errors import ConfigError
 
-__all__ = ["StagedFolder", "comment_header", "write_files", "write_text_new"]
+__all__ = ["StagedFolder", "write_files", "write_text_new"]
 
 
 def _umask() -> int:
@@ -74,11 +73,6 @@ def write_files(folder: Path, files: Mapping[str, str | bytes], force: bool = Fa
     except OSError as exc:
         raise ConfigError(f"cannot write ({exc.strerror})", file=str(folder)) from None
     return paths
-
-
-def comment_header(record: Mapping[str, Any]) -> str:
-    """Lines ``# key: value`` that record a run's provenance at the top of a CSV file."""
-    return "".join(f"# {k}: {json.dumps(v, default=str)}\n" for k, v in record.items())
 
 
 class _Terminated(BaseException):
