@@ -14,6 +14,7 @@ from landrisk import api
 from landrisk.cli import main
 from landrisk.errors import ConfigError
 from landrisk.io import parse_study
+from landrisk.report import render_assess
 
 ROOT = Path(__file__).resolve().parents[1]
 DATA = Path(__file__).resolve().parent / "data"
@@ -101,7 +102,14 @@ def test_sobol_converges_faster_than_random_on_the_demo() -> None:
 def test_comparison_lines_and_regulatory_factors() -> None:
     scenario, uncertain = api.load_study()
     a = api.assess(scenario, uncertain, samples=20_000, seed=1)
-    nominal = api.solve(scenario).total_m
+    # The samples place the touchdown point by its distribution (lognormal, median 420 m, sigma_log 0.3,
+    # truncated to [150, 1200] m); the deterministic line takes its median, computed here with
+    # scipy.stats.lognorm (the median of a truncated law: F^-1((F(lo) + F(hi)) / 2)).
+    base = stats.lognorm(0.3, scale=420.0)
+    median = float(base.ppf(0.5 * (base.cdf(150.0) + base.cdf(1200.0))))
+    assert median == pytest.approx(420.0, rel=2e-3)
+    nominal = api.solve(api.load(None, [f'procedure.touchdown_distance="{median!r} m"'])).total_m
+    assert a.nominal_total_m == pytest.approx(nominal, rel=1e-9)
     # 14 CFR 121.195(b) 1/0.6; 121.195(d) 1.15 on that; FAA SAFO 06012 1.15.
     factors = [c.factor for c in a.comparisons]
     assert factors == pytest.approx([1.0, 1 / 0.6, 1.15 / 0.6, 1.15])
@@ -126,8 +134,22 @@ def test_no_overrun_is_reported_as_an_upper_bound() -> None:
     a = api.assess(scenario, uncertain, samples=10_000, seed=1)
     assert a.p_overrun.upper_bound_only and a.p_overrun.events == 0
     assert a.p_overrun.hi == pytest.approx(3e-4, rel=0.01)  # rule of three
+    # One bound everywhere: the one-sided Clopper-Pearson 1 - 0.05^(1/n) (Clopper & Pearson 1934), which
+    # scipy.stats.binomtest gives as the upper end of its one-sided ("less") exact interval.
+    exact = stats.binomtest(0, 10_000, alternative="less").proportion_ci(0.95, method="exact").high
+    assert a.p_overrun.hi == pytest.approx(exact, rel=1e-9)
     record = api.assessment_record(a)
     assert record["p_overrun_upper_bound_only"] is True
+    assert record["p_overrun"] is None  # not 0.0, which a sum over a fleet would add
+    assert record["p_overrun_upper_bound"] == pytest.approx(exact, rel=1e-9)
+    assert f"< {exact:.2e}" in render_assess(a)
+    from landrisk.plotting import exceedance_figure
+
+    fig = exceedance_figure(a)
+    band = fig.axes[0].collections[0].get_paths()[0].vertices
+    # the band's top at the largest sample (no exceedance there) is the same bound
+    top_right = band[band[:, 0] >= a.sorted_total()[-1] - 1e-9, 1]
+    assert top_right.max() == pytest.approx(exact, rel=1e-9)
 
 
 def test_empirical_touchdown_points_from_csv() -> None:
@@ -217,16 +239,16 @@ def test_cli_assess_writes_files_with_provenance(tmp_path: Path) -> None:
     assert (summary["seed"], summary["sampler"], summary["samples"]) == (7, "sobol", 3000)
     assert summary["inputs"]["runway.lda"] == 1900.0 and "scenario_text" in summary
     assert set(summary["files"].values()) == names  # the summary references every file
-    for name in ("percentiles.csv", "samples.csv"):
-        head = (out / name).read_text(encoding="utf-8").splitlines()[:12]
-        assert any(line.startswith("# version:") for line in head)
-        assert any(line.startswith("# seed: 7") for line in head)
-        assert any(line.startswith("# inputs:") for line in head)
-    samples = pd.read_csv(out / "samples.csv", comment="#")
+    assert summary["version"] and summary["caution"] and len(summary["run_id"]) == 12
+    for name in ("percentiles.csv", "samples.csv"):  # plain CSV: no comment lines, a unit in each header
+        assert not (out / name).read_text(encoding="utf-8").startswith("#")
+    samples = pd.read_csv(out / "samples.csv")
     assert len(samples) == 3000
-    assert {"runway.braking_mu", "procedure.use_reverse", "total_m", "margin_m"} <= set(samples.columns)
-    np.testing.assert_allclose(samples["total_m"], samples["air_distance_m"] + samples["free_roll_m"]
-                               + samples["braking_m"], rtol=1e-9)
+    assert {"runway.braking_mu", "procedure.use_reverse", "total [m]", "margin [m]"} <= set(samples.columns)
+    assert samples["procedure.use_reverse"].dtype == bool and samples["overrun"].dtype == bool
+    assert samples["total [m]"].dtype == float and samples["aircraft.mass [kg]"].dtype == float
+    np.testing.assert_allclose(samples["total [m]"], samples["air_distance [m]"] + samples["free_roll [m]"]
+                               + samples["braking_roll [m]"], rtol=1e-9)
     for fig in ("exceedance.png", "exceedance.svg"):
         assert b'"seed": 7' in (out / fig).read_bytes()
     assert f"Files written:\n  {out / 'summary.json'}" in r.output

@@ -4,6 +4,7 @@ import json
 from pathlib import Path
 
 import numpy as np
+import pandas as pd
 import pytest
 from click.testing import CliRunner
 
@@ -134,7 +135,8 @@ def test_cli_rank_json(tmp_path: Path) -> None:
     out = tmp_path / "rank"
     r = run("rank", "--calls", "400", "--mc-check", "0", "--json", "--out", str(out))
     assert r.exit_code == 0, r.output
-    data = json.loads(r.stdout)
+    data = json.loads(r.stdout, parse_constant=_refuse)  # RFC 8259: no NaN or Infinity
+    json.loads((out / "ranking.json").read_text(encoding="utf-8"), parse_constant=_refuse)
     for key in ("method", "calls", "inputs", "order", "holdout_rel_error", "version", "seed"):
         assert key in data
     assert data["method"] == "pce" and data["calls"] == 400
@@ -142,6 +144,13 @@ def test_cli_rank_json(tmp_path: Path) -> None:
     names = {p.name for p in out.iterdir()}
     stems = ("indices", "tornado", "surrogate-exceedance")
     assert names == {"ranking.json", "indices.csv"} | {f"{s}.{e}" for s in stems for e in ("png", "svg")}
+    table = pd.read_csv(out / "indices.csv")  # plain CSV, a unit in each dimensional header
+    assert {"input", "total", "swing_total [m]", "unit"} <= set(table.columns)
+    assert table["total"].dtype == float and table["discrete"].dtype == bool
+
+
+def _refuse(name: str) -> None:
+    raise ValueError(f"not valid JSON: {name}")
 
 
 def test_cli_rank_monte_carlo_and_table() -> None:

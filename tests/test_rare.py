@@ -4,6 +4,7 @@ import json
 import math
 
 import numpy as np
+import pandas as pd
 import pytest
 from click.testing import CliRunner
 from scipy import stats
@@ -135,7 +136,10 @@ def test_cli_assess_rare_json_and_files(tmp_path) -> None:
     res = CliRunner().invoke(main, ["assess", "--method", "importance", "--set", 'runway.lda="2100 m"',
                                     "--json", "--out", str(out)])
     assert res.exit_code == 0, res.output
-    data = json.loads(res.stdout)
+    data = json.loads(res.stdout, parse_constant=_refuse)  # RFC 8259: no NaN or Infinity
+    json.loads((out / "summary.json").read_text(encoding="utf-8"), parse_constant=_refuse)
+    curve_csv = pd.read_csv(out / "risk-curve.csv")  # plain CSV, the unit in the header
+    assert list(curve_csv.columns) == ["lda [m]", "p_overrun_subset", "p_overrun_mc"]
     for key in ("method", "cov", "model_calls", "beta", "design_point", "p_overrun", "p_overrun_ci95",
                 "lda_m", "seed", "samples", "sampler", "version", "inputs"):
         assert key in data, key
@@ -145,3 +149,7 @@ def test_cli_assess_rare_json_and_files(tmp_path) -> None:
                                                "risk-curve.svg"}
     curve = data["risk_curve"]
     assert min(curve["p_subset"]) <= 1e-8 and max(curve["p_subset"]) >= 1e-1
+
+
+def _refuse(name: str) -> None:
+    raise ValueError(f"not valid JSON: {name}")

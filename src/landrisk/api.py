@@ -23,9 +23,11 @@ from typing import TYPE_CHECKING, Any
 
 from numpy.typing import ArrayLike
 
-from landrisk.errors import LandriskWarning, SolveError
+from landrisk.errors import ConfigError, LandriskWarning, SolveError
 from landrisk.export import (
+    SampleStream,
     assessment_record,
+    dumps,
     percentile_table,
     rank_table,
     ranking_record,
@@ -36,10 +38,11 @@ from landrisk.export import (
     write_ranking,
     write_rare,
 )
+from landrisk.export.writers import previous_files
 from landrisk.io import UncertainSet, load_scenario
 from landrisk.io import load_study as _load_study
 from landrisk.io.config import demo_text
-from landrisk.io.output import write_text_new
+from landrisk.io.output import StagedFolder, write_text_new
 from landrisk.model import Scenario, SingleLanding, solve_landings, solve_one
 
 if TYPE_CHECKING:
@@ -56,10 +59,13 @@ __all__ = [
     "EpistemicAssessment",
     "SingleLanding",
     "assess",
+    "assess_into",
     "assessment_record",
     "calibrate",
     "calibrated_scenario_text",
     "calibration_record",
+    "display_units",
+    "dumps",
     "epistemic",
     "epistemic_record",
     "load",
@@ -138,9 +144,12 @@ def solve_many(scenario: Scenario, values: Mapping[str, ArrayLike]) -> pd.DataFr
 
 def write_starter(path: str | Path, force: bool = False) -> Path:
     """Write a commented starter scenario (the invented demo, every key explained) to ``path``."""
+    from landrisk import CAUTION
+
     header = (
         "# Starter scenario written by `landrisk init`: a copy of the invented demo. Replace every value\n"
         "# with your own data; see the README for the meaning, unit and range of each key.\n"
+        f"# {CAUTION}\n"
     )
     return write_text_new(Path(path), header + demo_text(), force=force)
 
@@ -161,18 +170,75 @@ def assess(
     chunk: int = 1 << 16,
     keep_samples: bool = False,
     progress: Callable[[int, int], None] | None = None,
+    sink: Callable[[Any, Any], None] | None = None,
 ) -> Assessment:
     """Monte Carlo overrun assessment of ``scenario`` over its ``uncertain`` inputs.
 
     Returns the :class:`landrisk.studies.Assessment`; see :func:`percentile_table`,
-    :func:`samples_table` and :func:`assessment_record` for pandas and JSON views of it.
+    :func:`samples_table` and :func:`assessment_record` for pandas and JSON views of it. ``sink(x, y)``
+    receives each chunk of samples as it is made.
     """
     from landrisk.studies.assess import AssessSettings, assess
 
     _warn_fixed(uncertain)
     settings = AssessSettings(samples=samples, seed=seed, sampler=sampler, chunk=chunk,
                               keep_samples=keep_samples)
-    return assess(scenario, uncertain.problem(), settings, progress=progress, record=uncertain.record())
+    return assess(scenario, uncertain.problem(), settings, progress=progress, record=uncertain.record(),
+                  sink=sink)
+
+
+def assess_into(
+    scenario: Scenario,
+    uncertain: UncertainSet,
+    folder: str | Path,
+    *,
+    force: bool = False,
+    save_samples: bool = False,
+    samples_format: str = "csv",
+    units: str | None = None,
+    figures: bool = True,
+    **options: Any,
+) -> tuple[Assessment, list[Path]]:
+    """:func:`assess` writing its result set into ``folder`` (see :func:`write_assessment`).
+
+    With ``save_samples`` every sample is written as it is made (``samples.csv`` or
+    ``samples.parquet``), not kept in memory. The set is written into a hidden sibling folder and swapped
+    in when complete: a rerun with ``force`` leaves the complete old set or the complete new one.
+    ``options`` go to :func:`assess`.
+    """
+    from landrisk.plotting import FIGURES
+
+    if samples_format not in ("csv", "parquet"):
+        raise ConfigError("is not a samples format", key="--samples-format", value=samples_format,
+                          allowed="csv or parquet")
+    folder = Path(folder)
+    sample_file = f"samples.{samples_format}"
+    names = ["summary.json", "percentiles.csv", *([sample_file] if save_samples else []),
+             *([f"{k}.{e}" for k in FIGURES for e in ("png", "svg")] if figures else [])]
+    with StagedFolder(folder, names, force=force, previous=previous_files(folder, "summary.json")) as st:
+        stream = None
+        if save_samples:
+            stream = SampleStream(st.path(sample_file), uncertain.problem().names,
+                                  float(scenario.values["runway.lda"]), samples_format, units)
+        try:
+            result = assess(scenario, uncertain, sink=stream, **options)
+        finally:
+            if stream is not None:
+                stream.close()
+        paths = write_assessment(result, folder, figures=figures, units=units, stage=st, stream=stream)
+    return result, paths
+
+
+def display_units(scenario: Scenario, option: str | None = None) -> str | None:
+    """The unit system results are shown in: ``option`` (--units), else the scenario's ``[scenario]
+    units``, else None (metres with feet beside them)."""
+    if option:
+        return option
+    chosen = scenario.values.get("scenario.units") or None
+    if chosen is not None and chosen not in ("si", "aviation"):
+        raise ConfigError("is not a unit system", file=scenario.source, key="scenario.units", value=chosen,
+                          allowed="si or aviation")
+    return chosen
 
 
 def rank(

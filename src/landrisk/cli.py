@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 import sys
 import warnings
 from collections.abc import Callable
@@ -33,7 +32,7 @@ def _reported(fn: Callable[..., Any]) -> Callable[..., Any]:
                 result = fn(*args, **kwargs)
             except LandriskError as exc:
                 _print_warnings(caught)
-                click.echo(f"error: {exc}", err=True)
+                _echo(f"error: {exc}", err=True)
                 sys.exit(2)
         _print_warnings(caught)
         return result
@@ -44,8 +43,26 @@ def _reported(fn: Callable[..., Any]) -> Callable[..., Any]:
 def _print_warnings(caught: list[warnings.WarningMessage]) -> None:
     for w in caught:
         if issubclass(w.category, LandriskWarning):
-            click.echo(f"warning: {w.message}", err=True)
+            _echo(f"warning: {w.message}", err=True)
 
+
+def _echo(text: str, err: bool = False) -> None:
+    """Print ``text``; on a stream that cannot encode it (e.g. latin-1), in ASCII spellings."""
+    from landrisk.report import ascii_text
+
+    stream = sys.stderr if err else sys.stdout
+    encoding = getattr(stream, "encoding", None) or "ascii"
+    try:
+        text.encode(encoding)
+    except (UnicodeEncodeError, LookupError):
+        text = ascii_text(text)
+    click.echo(text, err=err)
+
+
+_units_option = click.option(
+    "--units", type=click.Choice(["si", "aviation"]), default=None,
+    help="Show results in si (m, m/s, kg) or aviation (ft, kt, lb) units [default: the scenario's "
+         "[scenario] units, else metres with feet beside them]. JSON stays SI.")
 
 _set_option = click.option(
     "--set", "overrides", multiple=True, metavar="KEY=VALUE",
@@ -69,8 +86,9 @@ def main() -> None:
 @_config_argument
 @_set_option
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of the table.")
+@_units_option
 @_reported
-def solve(config: str | None, overrides: tuple[str, ...], as_json: bool) -> None:
+def solve(config: str | None, overrides: tuple[str, ...], as_json: bool, units: str | None) -> None:
     """Deterministic landing distance of one landing at the scenario's nominal inputs.
 
     Prints the air distance, free roll, braking roll and total in m and ft, the stall and touchdown
@@ -80,9 +98,9 @@ def solve(config: str | None, overrides: tuple[str, ...], as_json: bool) -> None
 
     landing = api.solve(api.load(config, overrides))
     if as_json:
-        click.echo(json.dumps(api.solve_record(landing), indent=2))
+        _echo(api.dumps(api.solve_record(landing)))
     else:
-        click.echo(report.render_solve(landing))
+        _echo(report.render_solve(landing, api.display_units(landing.scenario, units)))
 
 
 class _ProgressBar:
@@ -120,8 +138,10 @@ class _ProgressBar:
 @_set_option
 @click.option("--out", "out_dir", type=click.Path(file_okay=False),
               help="Write summary.json, percentiles.csv and the figures (PNG, SVG) to this folder.")
-@click.option("--save-samples", is_flag=True, help="With --out: also samples.csv, every sample's inputs "
-              "and phase distances.")
+@click.option("--save-samples", is_flag=True, help="With --out: also the samples (every sample's inputs "
+              "and phase distances), written as they are made.")
+@click.option("--samples-format", type=click.Choice(["csv", "parquet"]), default="csv", show_default=True,
+              help="File format of --save-samples.")
 @click.option("--force", is_flag=True, help="Replace existing output files.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of the summary.")
 @click.option("--quiet", is_flag=True, help="No progress bar.")
@@ -132,10 +152,12 @@ class _ProgressBar:
               help="With --epistemic: outer draws of the epistemic parameters.")
 @click.option("--epistemic-method", type=click.Choice(["reweight", "nested"]), default="reweight",
               show_default=True, help="With --epistemic: reweight one inner sample, or a nested loop.")
+@_units_option
 @_reported
 def assess(config: str | None, samples: int, seed: int, sampler: str, method: str,
            overrides: tuple[str, ...], out_dir: str | None, save_samples: bool, force: bool, as_json: bool,
-           quiet: bool, epistemic: bool, outer: int, epistemic_method: str) -> None:
+           quiet: bool, epistemic: bool, outer: int, epistemic_method: str, samples_format: str,
+           units: str | None) -> None:
     """Probability of an overrun and percentile landing distances, by Monte Carlo.
 
     Samples the scenario's uncertain inputs ([uncertain."<key>"] tables), solves every landing, and
@@ -153,34 +175,42 @@ def assess(config: str | None, samples: int, seed: int, sampler: str, method: st
     scenario, uncertain = api.load_study(config, overrides)
     if epistemic and method != "mc":
         raise click.UsageError("--epistemic works with --method mc (Monte Carlo inner samples)")
+    shown = api.display_units(scenario, units)
     if method != "mc":
         rare = api.rare(scenario, uncertain, method=method, seed=seed)
-        written = [str(p) for p in api.write_rare(rare, out_dir, force=force)] if out_dir else None
+        rare_written = ([str(p) for p in api.write_rare(rare, out_dir, force=force, units=shown)]
+                        if out_dir else None)
         if as_json:
-            click.echo(json.dumps(api.rare_record(rare), indent=2, default=str))
+            _echo(api.dumps(api.rare_record(rare)))
         else:
-            click.echo(report.render_rare(rare, written))
+            _echo(report.render_rare(rare, rare_written))
         return
     bar = _ProgressBar(not quiet)
+    options: dict[str, Any] = {"samples": samples, "seed": seed, "sampler": sampler, "progress": bar}
+    written: list[str] | None = None
     try:
-        result = api.assess(scenario, uncertain, samples=samples, seed=seed, sampler=sampler,
-                            keep_samples=save_samples, progress=bar)
+        if out_dir:
+            result, paths = api.assess_into(scenario, uncertain, out_dir, force=force,
+                                            save_samples=save_samples, samples_format=samples_format,
+                                            units=shown, **options)
+            written = [str(p) for p in paths]
+        else:
+            result = api.assess(scenario, uncertain, **options)
     finally:
         bar.close()
-    written = [str(p) for p in api.write_assessment(result, out_dir, force=force)] if out_dir else None
     ep = (api.epistemic(scenario, uncertain, outer=outer, inner=samples, seed=seed, method=epistemic_method)
           if epistemic else None)
     if ep is not None and out_dir and written is not None:
-        written += [str(p) for p in api.write_epistemic(ep, out_dir, force=force)]
+        written += [str(p) for p in api.write_epistemic(ep, out_dir, force=True)]
     if as_json:
         record = {k: v for k, v in api.assessment_record(result).items() if k != "scenario_text"}
         if ep is not None:
             record["epistemic"] = api.epistemic_record(ep)
-        click.echo(json.dumps(record, indent=2, default=str))
+        _echo(api.dumps(record))
     else:
-        click.echo(report.render_assess(result, written))
+        _echo(report.render_assess(result, written, shown))
         if ep is not None:
-            click.echo("\n" + report.render_epistemic(ep))
+            _echo("\n" + report.render_epistemic(ep))
 
 
 def _order(value: str) -> int | None:
@@ -227,10 +257,9 @@ def rank(config: str | None, method: str, order: str, calls: int | None, seed: i
                       mc_check=mc_check if method == "pce" else 0)
     written = [str(p) for p in api.write_ranking(result, out_dir, force=force)] if out_dir else None
     if as_json:
-        click.echo(json.dumps({k: v for k, v in api.ranking_record(result).items() if k != "scenario_text"},
-                              indent=2, default=str))
+        _echo(api.dumps({k: v for k, v in api.ranking_record(result).items() if k != "scenario_text"}))
     else:
-        click.echo(report.render_rank(result, written))
+        _echo(report.render_rank(result, written))
 
 
 @main.command(epilog=_HELP_CAUTION)
@@ -260,9 +289,9 @@ def calibrate(config: str, reference: str, overrides: tuple[str, ...], out_dir: 
     written = ([str(p) for p in api.write_calibration(result, out_dir, force=force, uncertain=uncertain)]
                if out_dir else None)
     if as_json:
-        click.echo(json.dumps(api.calibration_record(result), indent=2, default=str))
+        _echo(api.dumps(api.calibration_record(result)))
     else:
-        click.echo(report.render_calibration(result, written))
+        _echo(report.render_calibration(result, written))
 
 
 @main.command(epilog=_HELP_CAUTION)

@@ -1,7 +1,9 @@
 """Figures of an assessment (matplotlib, imported only when a figure is made).
 
 Each figure carries the caution and the run's provenance (tool version, scenario, samples, sampler,
-seed) in its footer and in the file's metadata.
+seed) in its footer and in the file's metadata. The assessment figures take ``units`` (``si``, the
+default, or ``aviation``) for their distance axes and labels; landings that cannot stop (an infinite
+distance) are counted in the exceedance curve and named in its title, and left out of the histogram.
 """
 
 from __future__ import annotations
@@ -17,7 +19,8 @@ from landrisk.model import KEYS
 from landrisk.studies import Assessment, Ranking, RareAssessment
 from landrisk.studies.calibrate import Calibration
 from landrisk.studies.epistemic import EpistemicAssessment
-from landrisk.uq import exceedance_curve, wilson_interval
+from landrisk.units import DisplayUnits
+from landrisk.uq import exceedance_curve, wilson_interval, zero_event_bound
 
 if TYPE_CHECKING:
     from matplotlib.figure import Figure
@@ -56,27 +59,38 @@ def _assess_run(a: Assessment) -> str:
     return f"{a.settings.samples:,} samples, {a.settings.sampler}, seed {a.settings.seed}"
 
 
-def exceedance_figure(a: Assessment) -> Figure:
-    """P(total landing distance > x) on a log axis, with its 95 % band, the LDA and comparison lines."""
+def exceedance_figure(a: Assessment, units: str | None = None) -> Figure:
+    """P(total landing distance > x) on a log axis, with its 95 % band, the LDA and comparison lines.
+
+    Where no sample exceeds x the band's upper end is the one-sided Clopper-Pearson bound, as in the
+    report and the JSON.
+    """
     plt = _pyplot()
+    du = DisplayUnits(units or "si")
+    lu = du.unit("length")
     xs = a.sorted_total()
-    grid = np.linspace(xs[0], xs[-1], 600)
-    p, lo, hi = exceedance_curve(xs, grid, a.settings.confidence)
-    floor = 0.5 / xs.size
+    finite = xs[np.isfinite(xs)]
     fig, ax = plt.subplots(figsize=(8, 5.2))
-    ax.fill_between(grid, np.maximum(lo, floor), np.maximum(hi, floor), alpha=0.3,
-                    label=f"{100 * a.settings.confidence:g} % interval (Wilson)")
-    keep = p > 0
-    ax.step(grid[keep], p[keep], where="post", lw=1.6, label="Monte Carlo estimate")
+    floor = 0.5 / xs.size
+    if finite.size:
+        grid = np.linspace(finite[0], finite[-1], 600)
+        p, lo, hi = exceedance_curve(xs, grid, a.settings.confidence)
+        ax.fill_between(du.length(grid), np.maximum(lo, floor), np.maximum(hi, floor), alpha=0.3,
+                        label=f"{100 * a.settings.confidence:g} % interval (Wilson; no exceedance: "
+                              f"Clopper-Pearson {zero_event_bound(xs.size, a.settings.confidence):.1e})")
+        keep = p > 0
+        ax.step(du.length(grid[keep]), p[keep], where="post", lw=1.6, label="Monte Carlo estimate")
     ax.set_yscale("log")
     ax.set_ylim(floor, 1.0)
-    ax.axvline(a.lda_m, color="black", lw=2, label=f"LDA {a.lda_m:.0f} m")
+    ax.axvline(du.length(a.lda_m), color="black", lw=2, label=f"LDA {du.length(a.lda_m):.0f} {lu}")
     for c, style in zip(a.comparisons, ("--", "-.", ":", (0, (5, 1, 1, 1))), strict=False):
-        ax.axvline(c.distance_m, ls=style, color="grey", lw=1.2, label=f"{c.name}: {c.distance_m:.0f} m")
-    ax.set_xlabel("total landing distance from the screen height x [m]")
+        d = du.length(c.distance_m)
+        ax.axvline(d, ls=style, color="grey", lw=1.2, label=f"{c.name}: {d:.0f} {lu}")
+    ax.set_xlabel(f"total landing distance from the screen height x [{lu}]")
     ax.set_ylabel("probability that the distance exceeds x")
+    stop = f"; {a.cannot_stop:,} of {a.n:,} landings cannot stop" if a.cannot_stop else ""
     ax.set_title(f"Exceedance of the landing distance: {a.scenario.name}\n"
-                 f"P(overrun) = {a.p_overrun.text()}", fontsize=9)
+                 f"P(overrun) = {a.p_overrun.text()}{stop}", fontsize=9)
     ax.grid(True, which="both", alpha=0.3)
     ax.legend(fontsize=7, loc="lower left")
     fig.subplots_adjust(bottom=0.2)
@@ -84,25 +98,36 @@ def exceedance_figure(a: Assessment) -> Figure:
     return fig
 
 
-def histogram_figure(a: Assessment) -> Figure:
-    """Histogram of the total landing distance with the LDA."""
+def histogram_figure(a: Assessment, units: str | None = None) -> Figure:
+    """Histogram of the total landing distance (of the landings that stop) with the LDA."""
     plt = _pyplot()
+    du = DisplayUnits(units or "si")
+    lu = du.unit("length")
+    total = a.outputs["total_m"]
     fig, ax = plt.subplots(figsize=(8, 4.8))
-    ax.hist(a.outputs["total_m"], bins=120, density=True, alpha=0.8)
-    ax.axvline(a.lda_m, color="black", lw=2, label=f"LDA {a.lda_m:.0f} m")
-    ax.axvline(a.nominal_total_m, color="grey", ls="--", label=f"deterministic {a.nominal_total_m:.0f} m")
-    ax.set_xlabel("total landing distance from the screen height [m]")
-    ax.set_ylabel("probability density [1/m]")
-    ax.set_title(f"Distribution of the landing distance: {a.scenario.name}", fontsize=9)
+    stops = total[np.isfinite(total)]
+    if stops.size:
+        ax.hist(du.length(stops), bins=120, density=True, alpha=0.8)
+    else:
+        ax.text(0.5, 0.5, "no landing stops", transform=ax.transAxes, ha="center")
+    ax.axvline(du.length(a.lda_m), color="black", lw=2, label=f"LDA {du.length(a.lda_m):.0f} {lu}")
+    if np.isfinite(a.nominal_total_m):
+        d = du.length(a.nominal_total_m)
+        ax.axvline(d, color="grey", ls="--", label=f"deterministic {d:.0f} {lu}")
+    ax.set_xlabel(f"total landing distance from the screen height [{lu}]")
+    ax.set_ylabel(f"probability density [1/{lu}]")
+    stop = f" ({a.cannot_stop:,} landings that cannot stop left out)" if a.cannot_stop else ""
+    ax.set_title(f"Distribution of the landing distance: {a.scenario.name}{stop}", fontsize=9)
     ax.legend(fontsize=8)
     fig.subplots_adjust(bottom=0.2)
     _footer(fig, a.scenario, _assess_run(a))
     return fig
 
 
-def convergence_figure(a: Assessment) -> Figure:
+def convergence_figure(a: Assessment, units: str | None = None) -> Figure:
     """P(overrun) and the 99th percentile against the number of samples used."""
     plt = _pyplot()
+    du = DisplayUnits(units or "si")
     c = a.convergence
     n, p = c["n"], c["p_event"]
     conf = a.settings.confidence
@@ -115,11 +140,14 @@ def convergence_figure(a: Assessment) -> Figure:
     ax1.set_ylabel("P(overrun)")
     ax1.set_title("overrun probability", fontsize=9)
     ax1.legend(fontsize=7)
-    ax2.plot(n, c["quantile"], marker="o", ms=3)
+    q = np.asarray(c["quantile"], dtype=float)
+    ok = np.isfinite(q)
+    ax2.plot(n[ok], du.length(q[ok]), marker="o", ms=3)
     ax2.set_xscale("log")
     ax2.set_xlabel("samples")
-    ax2.set_ylabel("P99 of the total distance [m]")
-    ax2.set_title("99th percentile", fontsize=9)
+    ax2.set_ylabel(f"P99 of the total distance [{du.unit('length')}]")
+    ax2.set_title("99th percentile" + ("" if ok.all() else " (beyond any runway where not shown)"),
+                  fontsize=9)
     for ax in (ax1, ax2):
         ax.grid(True, which="both", alpha=0.3)
     fig.suptitle(f"Convergence of the Monte Carlo estimates: {a.scenario.name}", fontsize=10)
@@ -136,7 +164,7 @@ def figure_bytes(fig: Figure, fmt: str, record: dict[str, Any]) -> bytes:
     """The figure as PNG or SVG bytes, with the run's record in the file's metadata; closes it."""
     plt = _pyplot()
     buf = io.BytesIO()
-    text = json.dumps(record, sort_keys=True, default=str)
+    text = json.dumps(record, sort_keys=True, default=str, ensure_ascii=False)
     meta = {"Description": text} if fmt == "png" else {"Description": text, "Date": None}
     fig.savefig(buf, format=fmt, dpi=130, metadata=meta)
     plt.close(fig)

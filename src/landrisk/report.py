@@ -1,22 +1,84 @@
-"""Plain-text reports of results, as the command line prints them."""
+"""Plain-text reports of results, as the command line prints them.
+
+Distances and speeds are shown in the unit system asked for (``units="si"``: m, m/s, kg; ``"aviation"``:
+ft, kt, lb; ``None``: metres with feet beside them and knots with m/s, as before), converted through
+:class:`landrisk.units.DisplayUnits`; the results themselves stay SI. :func:`ascii_text` spells a report
+in ASCII for a terminal that cannot show every character.
+"""
 
 from __future__ import annotations
 
+import unicodedata
 from typing import TYPE_CHECKING
 
 import numpy as np
 
 from landrisk import CAUTION, __version__
 from landrisk.model import SingleLanding
-from landrisk.units import convert
+from landrisk.units import DisplayUnits, convert
 
 if TYPE_CHECKING:  # imported with the results themselves, not by printing a landing
     from landrisk.studies import Assessment, Ranking, RareAssessment
     from landrisk.studies.calibrate import Calibration
     from landrisk.studies.epistemic import EpistemicAssessment
+    from landrisk.uq import Percentile
 
-__all__ = ["render_assess", "render_calibration", "render_epistemic", "render_rank", "render_rare",
-           "render_solve"]
+__all__ = ["BEYOND", "ascii_text", "render_assess", "render_calibration", "render_epistemic", "render_rank",
+           "render_rare", "render_solve"]
+
+#: How a percentile of the distance that lies among the landings that cannot stop is shown.
+BEYOND = "beyond any runway"
+
+_ASCII = {"°": "deg", "μ": "mu", "µ": "mu", "≥": ">=", "≤": "<=", "≈": "~", "±": "+/-", "×": "x",
+          "−": "-", "–": "-", "—": "-", "‘": "'", "’": "'", "“": '"', "”": '"', "…": "...", "²": "^2",
+          "³": "^3", "·": ".", "\u00a0": " ", "\u2009": " ", "\u202f": " ", "→": "->"}
+
+
+def ascii_text(text: str) -> str:
+    """``text`` in ASCII: known symbols spelled out (° -> deg, μ -> mu), accents dropped, others '?'."""
+    out = []
+    for ch in text:
+        if ord(ch) < 128:
+            out.append(ch)
+        elif ch in _ASCII:
+            out.append(_ASCII[ch])
+        else:
+            base = unicodedata.normalize("NFKD", ch).encode("ascii", "ignore").decode()
+            out.append(base or "?")
+    return "".join(out)
+
+
+class _Show:
+    """Numbers with their units for a report, in one system or (``None``) metres and feet side by side."""
+
+    def __init__(self, units: str | None) -> None:
+        self.both = units is None
+        self.du = DisplayUnits(units or "si")
+
+    @property
+    def lu(self) -> str:
+        return self.du.unit("length")
+
+    def dist(self, metres: float, fmt: str = ".0f") -> str:
+        """``1234 m`` (one system) or ``1234 m (4049 ft)`` (both)."""
+        text = f"{self.du.length(metres):{fmt}} {self.lu}"
+        return text + (f" ({convert(metres, 'm', 'ft'):.0f} ft)" if self.both else "")
+
+    def speed(self, mps: float, fmt: str = ".0f") -> str:
+        if self.both:
+            return f"{convert(mps, 'm/s', 'kt'):{fmt}} kt"
+        return f"{self.du.speed(mps):{fmt}} {self.du.unit('speed')}"
+
+    def row(self, label: str, metres: float, note: str = "") -> str:
+        """A distance row of the solve table."""
+        if self.both:
+            return _m_ft(label, metres, note)
+        return f"  {label:<28}{self.du.length(metres):10.1f} {self.lu:<3} {note}".rstrip()
+
+    def speed_row(self, label: str, mps: float) -> str:
+        if self.both:
+            return _kt(label, mps)
+        return f"  {label:<28}{self.du.speed(mps):10.1f} {self.du.unit('speed')}"
 
 
 def _m_ft(label: str, metres: float, note: str = "") -> str:
@@ -37,8 +99,9 @@ def _closing(lines: list[str], notes: list[str], written: list[str] | None) -> s
     return "\n".join(lines)
 
 
-def render_solve(landing: SingleLanding) -> str:
-    """The deterministic landing as a readable table: phases in m and ft, speeds in kt, the margin."""
+def render_solve(landing: SingleLanding, units: str | None = None) -> str:
+    """The deterministic landing as a readable table: phases, speeds, the margin (``units``: see module)."""
+    sh = _Show(units)
     s = landing.scenario
     v = s.values
     lines = [
@@ -49,40 +112,41 @@ def render_solve(landing: SingleLanding) -> str:
         lines.append(f"  {v['scenario.description']}")
     lines += ["", "Distances from the screen height over the threshold"]
     if v["procedure.touchdown_distance"] is None:
-        lines += [_m_ft("approach (in the air)", landing.approach_m),
-                  _m_ft("flare (in the air)", landing.flare_m)]
+        lines += [sh.row("approach (in the air)", landing.approach_m),
+                  sh.row("flare (in the air)", landing.flare_m)]
     lines += [
-        _m_ft("air distance", landing.air_distance_m,
-              "(given touchdown point)" if v["procedure.touchdown_distance"] is not None else ""),
-        _m_ft("free roll", landing.free_roll_m, f"({v['procedure.reaction_time']:g} s, brakes off)"
-              if not landing.stopped_in_free_roll else "(stopped before the brakes came on)"),
-        _m_ft("braking roll", landing.braking_m),
-        _m_ft("total landing distance", landing.total_m),
-        _m_ft("landing distance available", landing.lda_m),
-        _m_ft("margin (LDA - total)", landing.margin_m,
-              f"({100 * landing.margin_m / landing.lda_m:.1f} % of LDA)"),
+        sh.row("air distance", landing.air_distance_m,
+               "(given touchdown point)" if v["procedure.touchdown_distance"] is not None else ""),
+        sh.row("free roll", landing.free_roll_m, f"({v['procedure.reaction_time']:g} s, brakes off)"
+               if not landing.stopped_in_free_roll else "(stopped before the brakes came on)"),
+        sh.row("braking roll", landing.braking_m),
+        sh.row("total landing distance", landing.total_m),
+        sh.row("landing distance available", landing.lda_m),
+        sh.row("margin (LDA - total)", landing.margin_m,
+               f"({100 * landing.margin_m / landing.lda_m:.1f} % of LDA)"),
         "",
         "Speeds (true airspeed unless stated)",
-        _kt("stall V_S", landing.stall_speed),
-        _kt("touchdown V_TD", landing.touchdown_speed),
-        _kt("touchdown ground speed", landing.touchdown_ground_speed),
-        _kt("at brake application", landing.brake_speed),
+        sh.speed_row("stall V_S", landing.stall_speed),
+        sh.speed_row("touchdown V_TD", landing.touchdown_speed),
+        sh.speed_row("touchdown ground speed", landing.touchdown_ground_speed),
+        sh.speed_row("at brake application", landing.brake_speed),
         f"  {'touchdown to stop':<28}{landing.time_to_stop_s:10.1f} s",
         "",
     ]
     if landing.overrun:
-        lines.append(
-            f"OVERRUN: {landing.beyond_end_m:.0f} m ({convert(landing.beyond_end_m, 'm', 'ft'):.0f} ft) "
-            f"beyond the runway end, crossing it at "
-            f"{convert(landing.runway_end_ground_speed, 'm/s', 'kt'):.0f} kt ground speed."
-        )
+        lines.append(f"OVERRUN: {sh.dist(landing.beyond_end_m)} beyond the runway end, crossing it at "
+                     f"{sh.speed(landing.runway_end_ground_speed)} ground speed.")
     else:
         lines.append("The aircraft stops within the landing distance available.")
     d = landing.derived
+    wind = v["conditions.headwind"]
+    wind_text = (f"{convert(wind, 'm/s', 'kt'):.1f} kt" if sh.both
+                 else f"{sh.du.speed(wind):.1f} {sh.du.unit('speed')}")
+    density = (f"{d['density_kg_m3']:.4f} kg/m^3" if units != "aviation"
+               else f"{convert(d['density_kg_m3'], 'kg/m^3', 'lb/ft^3'):.5f} lb/ft^3")
     lines += [
-        f"Inputs used: density {d['density_kg_m3']:.4f} kg/m^3, rolling mu {d['rolling_mu']:.3f}, "
-        f"braking mu {d['braking_mu']:.3f}, "
-        f"headwind {convert(v['conditions.headwind'], 'm/s', 'kt'):.1f} kt, "
+        f"Inputs used: density {density}, rolling mu {d['rolling_mu']:.3f}, "
+        f"braking mu {d['braking_mu']:.3f}, headwind {wind_text}, "
         f"reverse thrust {'used' if v['procedure.use_reverse'] else 'not used'}.",
         "",
         CAUTION,
@@ -103,8 +167,92 @@ def _pct_label(p: float) -> str:
     return f"P{p:g}"
 
 
-def render_assess(a: Assessment, written: list[str] | None = None) -> str:
+def _interval(sh: _Show, p: Percentile) -> str:
+    lo = "-" if p.lo is None else f"{sh.du.length(p.lo):.1f}"
+    hi = BEYOND if p.hi_infinite else ("-" if p.hi is None else f"{sh.du.length(p.hi):.1f}")
+    return f"[{lo}, {hi}]"
+
+
+def _distance_rows(a: Assessment, sh: _Show, conf: str) -> list[str]:
+    """The mean, sd and percentiles of the total distance, with what cannot be given said so."""
+    mom = a.moments["total_m"]
+    unit_head = f"{'m':>9} {'ft':>10}" if sh.both else f"{sh.lu:>9}"
+    lines = [f"Total landing distance from the screen height {unit_head}   {conf} interval [{sh.lu}]"]
+
+    def value(x: float) -> str:
+        return (f"{x:9.1f} {convert(x, 'm', 'ft'):10.0f}" if sh.both else f"{sh.du.length(x):9.1f}")
+
+    pad = 20 if sh.both else 9
+    if a.cannot_stop and mom.used:
+        lines.append(f"  (mean and standard deviation of the {mom.used:,} landings that stop; "
+                     f"{a.cannot_stop:,} of {a.n:,} cannot stop)")
+    if mom.mean is None:
+        lines.append(f"  {'mean':<44}cannot be estimated: no landing stops")
+    else:
+        ci = (f"   [{sh.du.length(mom.lo):.1f}, {sh.du.length(mom.hi):.1f}]"
+              if mom.lo is not None and mom.hi is not None else "")
+        lines.append(f"  {'mean':<44}{value(mom.mean)}{ci}")
+    if mom.mean is None:
+        lines.append(f"  {'standard deviation':<44}cannot be estimated: no landing stops")
+    elif mom.sd is None:
+        lines.append(f"  {'standard deviation':<44}cannot be estimated from {mom.used} landing (needs 2),")
+        lines.append(f"  {'':<44}nor can the interval of the mean")
+    else:
+        lines.append(f"  {'standard deviation':<44}{value(mom.sd)}")
+    for p in a.percentiles["total_m"]:
+        if p.infinite:
+            lines.append(f"  {_pct_label(p.p):<44}{BEYOND:>{pad}}   (a landing that cannot stop)")
+        elif p.value is not None:
+            lines.append(f"  {_pct_label(p.p):<44}{value(p.value)}   {_interval(sh, p)}")
+        else:
+            lines.append(f"  {_pct_label(p.p):<44}{'needs more samples':>{pad}}")
+    return lines
+
+
+def _comparison_rows(a: Assessment, sh: _Show, conf: str) -> list[str]:
+    """Each comparison line, whether the LDA meets it, and how its distance was obtained."""
+    from landrisk.studies.assess import DRY_BRAKING_MU
+
+    lines = ["", f"Comparison lines (P that the Monte Carlo distance exceeds each; {conf} interval)"]
+    if not a.comparisons:
+        lines.append("  none: the deterministic landing at the nominal inputs cannot stop")
+    for c in a.comparisons:
+        verdict = "LDA meets it" if c.meets else "LDA does NOT meet it"
+        lines.append(f"  {c.name:<32}{sh.du.length(c.distance_m):8.0f} {sh.lu}   {verdict:<21}"
+                     f"{c.p_exceed.text()}")
+    lines += [f"    {c.name}: {c.source}" for c in a.comparisons[1:]]
+    note = ("the deterministic line is solved with the same touchdown model as the samples"
+            + (f": {a.nominal_note}" if a.nominal_note else ""))
+    lines.append(f"    {note}.")
+    if a.dry_basis_note:
+        lines.append(f"    {a.dry_basis_note}.")
+    elif a.comparisons:
+        lines.append("    the regulatory factors multiply the deterministic distance, a dry-runway one "
+                     f"(runway condition code 6, or braking mu at least {DRY_BRAKING_MU:g})")
+    return lines
+
+
+def _risk_rows(a: Assessment, sh: _Show) -> list[str]:
+    lines = [
+        "",
+        f"Runway: LDA {sh.dist(a.lda_m)}",
+        f"  P(overrun)                        {a.p_overrun.text()}",
+        f"  P(beyond a {sh.dist(a.resa_length_m)} safety area)   {a.p_beyond_resa.text()}",
+    ]
+    if a.cannot_stop:
+        lines.append(f"  {a.cannot_stop:,} of {a.n:,} landings cannot stop (thrust and slope outweigh the "
+                     "braking): counted as overruns, left out of the mean and standard deviation")
+    if a.overrun_speed_max is not None and a.overrun_speed_min is not None:
+        shown = [f"{'median' if p.p == 50 else _pct_label(p.p)} {sh.speed(p.value)}"
+                 for p in a.overrun_speed if p.value is not None]
+        lines.append("  ground speed of the overruns at the runway end: " + ", ".join(
+            [*shown, f"range {sh.speed(a.overrun_speed_min)} to {sh.speed(a.overrun_speed_max)}"]))
+    return lines
+
+
+def render_assess(a: Assessment, written: list[str] | None = None, units: str | None = None) -> str:
     """The Monte Carlo assessment as a readable summary: percentiles, overrun risk, comparison lines."""
+    sh = _Show(units)
     s = a.scenario
     st = a.settings
     conf = f"{100 * st.confidence:g} %"
@@ -121,41 +269,19 @@ def render_assess(a: Assessment, written: list[str] | None = None) -> str:
             f"{a.problem.names[i]} ~ {a.problem.names[j]} {a.problem.spearman[i, j]:+.2f}"
             for i in range(a.problem.dimension) for j in range(i + 1, a.problem.dimension)
             if a.problem.spearman[i, j] != 0))
-    mean, sd, lo, hi = a.moments["total_m"]
-    lines += [
-        "",
-        f"Total landing distance from the screen height          m         ft   {conf} interval [m]",
-        f"  {'mean':<44}{mean:9.1f} {convert(mean, 'm', 'ft'):10.0f}   [{lo:.1f}, {hi:.1f}]",
-        f"  {'standard deviation':<44}{sd:9.1f} {convert(sd, 'm', 'ft'):10.0f}",
-    ]
-    for p in a.percentiles["total_m"]:
-        if p.value is not None and p.lo is not None and p.hi is not None:
-            lines.append(f"  {_pct_label(p.p):<44}{p.value:9.1f} {convert(p.value, 'm', 'ft'):10.0f}   "
-                         f"[{p.lo:.1f}, {p.hi:.1f}]")
-        else:
-            lines.append(f"  {_pct_label(p.p):<44}{'needs more samples':>20}")
-    lines += ["", "By phase (P50 / P99, m):"]
+    lines += ["", *_distance_rows(a, sh, conf), "", f"By phase (P50 / P99, {sh.lu}):"]
     for name in ("air_distance_m", "free_roll_m", "braking_m"):
         by = {p.p: p for p in a.percentiles[name]}
-        if by[99.0].supported:
-            lines.append(f"  {name.removesuffix('_m').replace('_', ' '):<20}"
-                         f"{by[50.0].value:8.1f} / {by[99.0].value:8.1f}")
-    lines += [
-        "",
-        f"Runway: LDA {a.lda_m:.0f} m ({convert(a.lda_m, 'm', 'ft'):.0f} ft)",
-        f"  P(overrun)                        {a.p_overrun.text()}",
-        f"  P(beyond a {a.resa_length_m:.0f} m safety area)   {a.p_beyond_resa.text()}",
-    ]
-    if a.overrun_speed_max is not None and a.overrun_speed_min is not None:
-        shown = [f"{'median' if p.p == 50 else _pct_label(p.p)} {convert(p.value, 'm/s', 'kt'):.0f} kt"
-                 for p in a.overrun_speed if p.value is not None]
-        lo, hi = (convert(v, "m/s", "kt") for v in (a.overrun_speed_min, a.overrun_speed_max))
-        lines.append("  ground speed of the overruns at the runway end: " + ", ".join(
-            [*shown, f"range {lo:.0f} to {hi:.0f} kt"]))
-    lines += ["", f"Comparison lines (P that the Monte Carlo distance exceeds each; {conf} interval)"]
-    for c in a.comparisons:
-        lines.append(f"  {c.name:<32}{c.distance_m:8.0f} m   {c.p_exceed.text()}")
-    lines += [f"    {c.name}: {c.source}" for c in a.comparisons[1:]]
+        label = f"  {name.removesuffix('_m').replace('_', ' '):<20}"
+        if by[50.0].infinite:
+            lines.append(f"{label}{BEYOND} / {BEYOND}")
+        elif by[99.0].infinite and by[50.0].value is not None:
+            lines.append(f"{label}{sh.du.length(by[50.0].value):8.1f} / {BEYOND}")
+        elif by[99.0].supported and by[50.0].value is not None and by[99.0].value is not None:
+            p50, p99 = sh.du.length(by[50.0].value), sh.du.length(by[99.0].value)
+            lines.append(f"{label}{p50:8.1f} / {p99:8.1f}")
+    lines += _risk_rows(a, sh)
+    lines += _comparison_rows(a, sh, conf)
     if any(a.flags.values()):
         lines.append(f"Flags: {a.flags['lift_exceeds_weight']} samples with lift above weight at touchdown, "
                      f"{a.flags['cannot_stop']} that cannot stop (counted as overruns).")

@@ -77,7 +77,7 @@ def _registry() -> Any:
     # Offset units ("15 degC") parse to kelvin only with this option (pint documentation, "Temperature
     # conversion").
     try:
-        ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=":auto:")
+        ureg: Any = pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=":auto:")
         ureg.parse_units("kt")
         return ureg
     except Exception:  # an unwritable or damaged cache folder: build the registry without it
@@ -275,3 +275,60 @@ def has_dimension(value: Any, unit: str) -> bool:
         return bool(reg.Quantity(1.0, check_unit(written)).check(reg.Quantity(1.0, unit).dimensionality))
     except Exception:  # not a quantity at all
         return False
+
+
+# --- display of results -----------------------------------------------------------------------------
+
+#: Unit systems for showing results (the computation and the JSON stay SI): quantity kind -> unit
+#: (pint spelling) and its printed symbol.
+DISPLAY_SYSTEMS: dict[str, dict[str, tuple[str, str]]] = {
+    "si": {"length": ("m", "m"), "speed": ("m/s", "m/s"), "mass": ("kg", "kg"),
+           "temperature": ("degC", "°C"), "pressure": ("Pa", "Pa")},
+    "aviation": {"length": ("ft", "ft"), "speed": ("kt", "kt"), "mass": ("lb", "lb"),
+                 "temperature": ("degC", "°C"), "pressure": ("hPa", "hPa")},
+}
+#: The SI unit each kind of result is held in.
+_SI_UNIT = {"length": "m", "speed": "m/s", "mass": "kg", "temperature": "K", "pressure": "Pa"}
+#: Unit of a scenario key (schema spelling) -> quantity kind.
+_KIND_OF_UNIT = {"m": "length", "m/s": "speed", "kg": "mass", "K": "temperature", "Pa": "pressure"}
+
+
+class DisplayUnits:
+    """How results are shown: ``DisplayUnits("aviation").length(100.0) -> 328.08``; symbols by kind.
+
+    Values come in SI (m, m/s, kg, K, Pa) and go out in the chosen system, converted through pint.
+    """
+
+    def __init__(self, system: str = "si") -> None:
+        if system not in DISPLAY_SYSTEMS:
+            raise UnitError(f"unknown unit system {system!r}; allowed: {', '.join(DISPLAY_SYSTEMS)}")
+        self.system = system
+        self._units = DISPLAY_SYSTEMS[system]
+
+    def __repr__(self) -> str:
+        return f"DisplayUnits({self.system!r})"
+
+    def unit(self, kind: str) -> str:
+        """The printed symbol of ``kind`` (``length``, ``speed``, ``mass``, ``temperature``, ...)."""
+        return self._units[kind][1]
+
+    def value(self, kind: str, si: Any) -> Any:
+        """``si`` (a number or an array, in the SI unit of ``kind``) in this system's unit."""
+        import numpy as np
+
+        target = self._units[kind][0]
+        if target == _SI_UNIT[kind]:
+            return si
+        out = _registry().Quantity(np.asarray(si, dtype=float), _SI_UNIT[kind]).to(target).magnitude
+        return float(out) if np.ndim(out) == 0 else out
+
+    def length(self, metres: Any) -> Any:
+        return self.value("length", metres)
+
+    def speed(self, mps: Any) -> Any:
+        return self.value("speed", mps)
+
+    def key_unit(self, unit: str) -> tuple[str | None, str]:
+        """For a scenario key's SI unit: (the kind, or None if not converted, and the printed symbol)."""
+        kind = _KIND_OF_UNIT.get(unit)
+        return (kind, self.unit(kind)) if kind else (None, unit.replace("**", "^"))

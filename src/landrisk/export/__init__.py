@@ -2,7 +2,9 @@
 
 from landrisk.export.records import (
     assessment_record,
+    dumps,
     input_units,
+    json_safe,
     provenance,
     ranking_record,
     rare_record,
@@ -14,13 +16,25 @@ from landrisk.export.tables import (
     percentile_table,
     rank_table,
     risk_curve_table,
+    samples_columns,
     samples_table,
 )
-from landrisk.export.writers import write_assessment, write_ranking, write_rare, write_result_set
+from landrisk.export.writers import (
+    SAMPLE_FORMATS,
+    SampleStream,
+    write_assessment,
+    write_ranking,
+    write_rare,
+    write_result_set,
+)
 
 __all__ = [
+    "SAMPLE_FORMATS",
+    "SampleStream",
     "assessment_record",
+    "dumps",
     "input_units",
+    "json_safe",
     "landings_table",
     "percentile_table",
     "provenance",
@@ -28,6 +42,7 @@ __all__ = [
     "ranking_record",
     "rare_record",
     "risk_curve_table",
+    "samples_columns",
     "samples_table",
     "solve_record",
     "summary_record",

@@ -3,10 +3,17 @@
 Every record starts with :func:`provenance` (tool, version, caution, scenario, where it came from, the
 overrides, and how the run was made: seed, sampler, samples or method) and carries the resolved inputs,
 so that a file written from it can be traced back to what produced it.
+
+Records are valid JSON: no Infinity or NaN. A value that is not a finite number is given as ``null``
+beside a flag or a count saying why (``percentiles_beyond_any_runway``, ``landings_cannot_stop``), and
+:func:`dumps` replaces any left over by ``null`` and lists where in ``non_finite_values``. Every key
+with a unit ends in it, in SI: ``_m``, ``_mps`` (m/s), ``_kt`` where stated, ``_s``.
 """
 
 from __future__ import annotations
 
+import json
+import math
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -21,6 +28,7 @@ if TYPE_CHECKING:  # the studies are imported with their results, not by reading
 
 __all__ = [
     "assessment_record",
+    "dumps",
     "input_units",
     "provenance",
     "ranking_record",
@@ -35,6 +43,44 @@ def provenance(scenario: Scenario, **run: Any) -> dict[str, Any]:
     then the run's own settings (``seed=``, ``sampler=``, ``samples=``, ``method=``) in that order."""
     return {"tool": "landrisk", "version": __version__, "caution": CAUTION, "scenario": scenario.name,
             "source": scenario.source, "overrides": list(scenario.overrides), **run}
+
+
+def _clean(obj: Any, path: str, found: list[str]) -> Any:
+    if isinstance(obj, float | np.floating):
+        if math.isfinite(float(obj)):
+            return float(obj)
+        found.append(path)
+        return None
+    if isinstance(obj, np.integer):
+        return int(obj)
+    if isinstance(obj, np.bool_):
+        return bool(obj)
+    if isinstance(obj, np.ndarray):
+        obj = obj.tolist()
+    if isinstance(obj, dict):
+        return {k: _clean(v, f"{path}.{k}" if path else str(k), found) for k, v in obj.items()}
+    if isinstance(obj, list | tuple):
+        return [_clean(v, f"{path}[{i}]", found) for i, v in enumerate(obj)]
+    return obj
+
+
+def json_safe(record: Any) -> Any:
+    """``record`` with every non-finite number replaced by None; the paths replaced are listed under
+    ``non_finite_values`` (a dict record only)."""
+    found: list[str] = []
+    out = _clean(record, "", found)
+    if found and isinstance(out, dict):
+        out["non_finite_values"] = found
+    return out
+
+
+def dumps(record: Any, indent: int | None = 2) -> str:
+    """``record`` as valid JSON text (never Infinity or NaN; see :func:`json_safe`)."""
+    return json.dumps(json_safe(record), indent=indent, default=str, allow_nan=False, ensure_ascii=False)
+
+
+def _num(x: float | None) -> float | None:
+    return None if x is None or not math.isfinite(x) else float(x)
 
 
 def input_units() -> dict[str, str]:
@@ -59,7 +105,7 @@ def solve_record(landing: SingleLanding) -> dict[str, Any]:
         "lda_m": landing.lda_m,
         "margin_m": landing.margin_m,
         "overrun": landing.overrun,
-        "runway_end_ground_speed_ms": landing.runway_end_ground_speed,
+        "runway_end_ground_speed_mps": landing.runway_end_ground_speed,
         "beyond_end_m": landing.beyond_end_m,
         "stall_speed_kt": _kt(landing.stall_speed),
         "touchdown_speed_kt": _kt(landing.touchdown_speed),
@@ -76,38 +122,59 @@ def _pct(items: list[Percentile]) -> dict[str, Any]:
     return {f"{p.p:g}": p.as_dict() for p in items}
 
 
+def _phase_record(a: Assessment, name: str) -> dict[str, Any]:
+    m = a.moments[name]
+    return {"mean_m": _num(m.mean), "sd_m": _num(m.sd), "moments_samples": m.used,
+            "moments_excluded_cannot_stop": m.excluded, "percentiles": _pct(a.percentiles[name])}
+
+
 def summary_record(a: Assessment) -> dict[str, Any]:
-    """The figures of an assessment, JSON-ready (no provenance; :func:`assessment_record` adds it)."""
+    """The figures of an assessment, JSON-ready (no provenance; :func:`assessment_record` adds it).
+
+    Means and standard deviations are of the landings that stop (``moments_samples`` of them); the
+    ``landings_cannot_stop`` are overruns with an infinite distance, and a percentile above their share
+    is listed in ``percentiles_beyond_any_runway`` instead of given a number. With fewer than two
+    landings that stop the standard deviation cannot be estimated: ``sd_m`` is null.
+    """
     from landrisk.studies.assess import PHASES
 
     tot = a.percentiles["total_m"]
+    mom = a.moments["total_m"]
+    finite = [p for p in tot if p.supported and not p.infinite]
     return {
         "samples": a.n,
         "seed": a.settings.seed,
         "sampler": a.settings.sampler,
         "confidence": a.settings.confidence,
         "lda_m": a.lda_m,
-        "mean_m": a.moments["total_m"][0],
-        "sd_m": a.moments["total_m"][1],
-        "mean_ci95_m": [a.moments["total_m"][2], a.moments["total_m"][3]],
-        "percentiles_m": {f"{p.p:g}": p.value for p in tot if p.supported},
+        "mean_m": _num(mom.mean),
+        "sd_m": _num(mom.sd),
+        "mean_ci95_m": [mom.lo, mom.hi] if mom.lo is not None else None,
+        "moments_samples": mom.used,
+        "landings_cannot_stop": a.cannot_stop,
+        "percentiles_m": {f"{p.p:g}": p.value for p in finite},
         "percentiles_ci95_m": {f"{p.p:g}": [p.lo, p.hi] for p in tot if p.supported},
+        "percentiles_beyond_any_runway": [f"{p.p:g}" for p in tot if p.infinite],
         "unsupported_percentiles": [f"{p.p:g}" for p in tot if not p.supported],
-        "p_overrun": a.p_overrun.estimate,
+        "p_overrun": None if a.p_overrun.upper_bound_only else a.p_overrun.estimate,
         "p_overrun_ci95": [a.p_overrun.lo, a.p_overrun.hi],
         "p_overrun_upper_bound_only": a.p_overrun.upper_bound_only,
+        "p_overrun_upper_bound": a.p_overrun.hi if a.p_overrun.upper_bound_only else None,
         "overruns": a.p_overrun.events,
         "resa_length_m": a.resa_length_m,
         "p_beyond_resa": a.p_beyond_resa.as_dict(),
-        "overrun_ground_speed_ms": _pct(a.overrun_speed),
-        "overrun_ground_speed_min_ms": a.overrun_speed_min,
-        "overrun_ground_speed_max_ms": a.overrun_speed_max,
-        "phases": {name: {"mean_m": a.moments[name][0], "sd_m": a.moments[name][1],
-                          "percentiles": _pct(a.percentiles[name])} for name in PHASES},
-        "comparison_lines": [{"name": c.name, "factor": c.factor, "source": c.source,
-                              "distance_m": c.distance_m, "p_exceed": c.p_exceed.as_dict()}
-                             for c in a.comparisons],
-        "nominal_total_m": a.nominal_total_m,
+        "overrun_ground_speed_mps": _pct(a.overrun_speed),
+        "overrun_ground_speed_min_mps": a.overrun_speed_min,
+        "overrun_ground_speed_max_mps": a.overrun_speed_max,
+        "phases": {name: _phase_record(a, name) for name in PHASES},
+        "comparison_lines": [{"name": c.name, "factor": c.factor, "source": c.source, "basis": c.basis,
+                              "distance_m": c.distance_m, "lda_meets": c.meets,
+                              "p_exceed": c.p_exceed.as_dict()} for c in a.comparisons],
+        "nominal_total_m": _num(a.nominal_total_m),
+        "nominal_cannot_stop": not math.isfinite(a.nominal_total_m),
+        "nominal_inputs_note": a.nominal_note,
+        "dry_runway_total_m": _num(a.dry_total_m) if a.dry_basis_note else _num(a.nominal_total_m),
+        "dry_runway_note": a.dry_basis_note,
         "flags": a.flags,
     }
 

@@ -2,7 +2,9 @@
 format nor write (records, tables and files are :mod:`landrisk.export`'s).
 
 Each study module is imported on first use of one of its names, so that a command imports only the
-methods it runs (``rank`` brings in chaospy, ``solve`` none of them).
+methods it runs (``rank`` brings in chaospy, ``solve`` none of them). The functions that share a name
+with their module are imported from the module itself: ``from landrisk.studies.assess import assess``,
+``from landrisk.studies.rank import rank``.
 """
 
 from __future__ import annotations
@@ -19,17 +21,16 @@ if TYPE_CHECKING:
         Assessment,
         AssessSettings,
         ComparisonLine,
-        assess,
     )
     from landrisk.studies.binding import OUTPUTS, Branch, landing_model, limit_state
-    from landrisk.studies.rank import InputRank, Ranking, RankSettings, rank
+    from landrisk.studies.rank import InputRank, Ranking, RankSettings
     from landrisk.studies.rare import RARE_METHODS, RareAssessment, RareSettings, rare_assess
 
 _WHERE = {
     "landrisk.studies.assess": ("COMPARISON_FACTORS", "PERCENTILES", "PHASES", "Assessment",
-                                "AssessSettings", "ComparisonLine", "assess"),
+                                "AssessSettings", "ComparisonLine"),
     "landrisk.studies.binding": ("OUTPUTS", "Branch", "landing_model", "limit_state"),
-    "landrisk.studies.rank": ("InputRank", "Ranking", "RankSettings", "rank"),
+    "landrisk.studies.rank": ("InputRank", "Ranking", "RankSettings"),
     "landrisk.studies.rare": ("RARE_METHODS", "RareAssessment", "RareSettings", "rare_assess"),
 }
 __all__ = [
@@ -47,10 +48,8 @@ __all__ = [
     "Ranking",
     "RareAssessment",
     "RareSettings",
-    "assess",
     "landing_model",
     "limit_state",
-    "rank",
     "rare_assess",
 ]
 

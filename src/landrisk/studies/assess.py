@@ -5,6 +5,18 @@ Joins the model (the vectorised solver, bound to the scenario's keys) and the ge
 phase with order-statistic intervals, the probability of an overrun and of stopping beyond the runway-end
 safety area with binomial intervals, the ground speed of the overruns at the runway end, and comparison
 lines: the deterministic distance at nominal inputs and that distance with regulatory factors.
+
+A landing that cannot stop (thrust and slope outweigh the braking) has an infinite distance: it counts
+as an overrun, is left out of the means and standard deviations (which are those of the landings that
+stop, with the count left out given), and a percentile above the share of such landings is infinite
+("beyond any runway"), never a number.
+
+The deterministic comparison line is solved with the same touchdown model as the samples: an uncertain
+input with no nominal value in the scenario (typically ``procedure.touchdown_distance``, sampled while
+the nominal landing uses the flare model) is taken at the median of its distribution. The regulatory
+factors apply to a dry-runway distance: when the scenario's friction is not dry (a runway condition code
+below 6, or a braking coefficient below :data:`DRY_BRAKING_MU`), the factored lines are computed from the
+same landing on a dry runway (condition code 6 of the documented table) and say so.
 """
 
 from __future__ import annotations
@@ -16,11 +28,14 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from landrisk.errors import LandriskError
-from landrisk.model import Scenario, solve_one
+from landrisk.errors import LandriskError, SolveError
+from landrisk.model import KEYS, Scenario, solve_landings
+from landrisk.physics import CONDITION_CODE_TABLE
+from landrisk.studies import shown
 from landrisk.studies.binding import landing_model
 from landrisk.uq import (
     EventProbability,
+    Moments,
     Percentile,
     Problem,
     convergence,
@@ -32,6 +47,7 @@ from landrisk.uq import (
 
 __all__ = [
     "COMPARISON_FACTORS",
+    "DRY_BRAKING_MU",
     "PERCENTILES",
     "PHASES",
     "AssessSettings",
@@ -57,6 +73,11 @@ COMPARISON_FACTORS: tuple[tuple[str, float, str], ...] = (
     ("time-of-arrival margin x1.15", 1.15,
      "FAA SAFO 06012 (2006): at least 15 % over the actual landing distance"),
 )
+#: Comparison lines whose factor applies to a dry-runway distance.
+_DRY_BASED = ("dry-runway factor 1/0.6", "wet-runway factor 1.15/0.6")
+#: A braking coefficient below this is not a dry runway's: Raymer 2018, Table 17.1 gives brakes-on
+#: 0.3-0.5 dry and 0.15-0.3 wet.
+DRY_BRAKING_MU = 0.3
 
 @dataclass(frozen=True)
 class AssessSettings:
@@ -79,6 +100,13 @@ class ComparisonLine:
     source: str
     distance_m: float
     p_exceed: EventProbability
+    basis: str = "the deterministic distance"  #: the distance the factor multiplies
+    lda_m: float = float("nan")  #: the landing distance available it is compared with
+
+    @property
+    def meets(self) -> bool:
+        """Whether the landing distance available is at least this line's distance."""
+        return bool(self.lda_m >= self.distance_m)
 
 
 @dataclass(frozen=True)
@@ -91,7 +119,7 @@ class Assessment:
     outputs: dict[str, NDArray] = field(repr=False)
     inputs: NDArray[np.float64] | None = field(repr=False)
     percentiles: dict[str, list[Percentile]]
-    moments: dict[str, tuple[float, float, float, float]]  # mean, sd, mean CI low, mean CI high
+    moments: dict[str, Moments]  # mean, sd, mean CI low, mean CI high (None: cannot be estimated)
     p_overrun: EventProbability
     p_beyond_resa: EventProbability
     resa_length_m: float
@@ -99,10 +127,18 @@ class Assessment:
     overrun_speed_min: float | None
     overrun_speed_max: float | None
     comparisons: list[ComparisonLine]
-    nominal_total_m: float
+    nominal_total_m: float  # inf when the nominal landing cannot stop
     flags: dict[str, int]
     convergence: dict[str, NDArray[np.float64]]
     record: Mapping[str, Any] = field(default_factory=dict)  # how the inputs were specified
+    nominal_note: str = ""  # how the deterministic line's inputs differ from the scenario's nominal ones
+    dry_basis_note: str = ""  # how the dry-runway distance of the factored lines was obtained
+    dry_total_m: float = float("nan")  # the dry-runway distance the regulatory factors multiply
+
+    @property
+    def cannot_stop(self) -> int:
+        """Number of sampled landings that cannot stop (infinite distance, counted as overruns)."""
+        return int(self.flags.get("cannot_stop", 0))
 
     @property
     def n(self) -> int:
@@ -118,6 +154,12 @@ class Assessment:
         """The total distances in ascending order."""
         return np.sort(self.outputs["total_m"])
 
+    def __repr__(self) -> str:
+        return shown.repr_of("Assessment", shown.assessment_lines(self))
+
+    def _repr_html_(self) -> str:
+        return shown.html_of("Assessment", shown.assessment_lines(self))
+
 
 def assess(
     scenario: Scenario,
@@ -125,6 +167,7 @@ def assess(
     settings: AssessSettings | None = None,
     progress: Callable[[int, int], None] | None = None,
     record: Mapping[str, Any] | None = None,
+    sink: Callable[[NDArray[np.float64], Mapping[str, NDArray]], None] | None = None,
 ) -> Assessment:
     """Monte Carlo assessment of the overrun risk of ``scenario`` over the uncertain inputs ``problem``.
 
@@ -140,6 +183,9 @@ def assess(
         progress(done, total) after each chunk.
     record : mapping, optional
         How the uncertain inputs were specified (kept with the result for output files).
+    sink : callable, optional
+        sink(x, outputs) with each chunk's inputs x[m, d] and outputs as they are made (to write the
+        samples without keeping them).
     """
     s = settings or AssessSettings()
     if problem.dimension == 0:
@@ -147,9 +193,18 @@ def assess(
                             '[uncertain."<key>"] tables (see the README)')
     if s.samples < 1:
         raise LandriskError(f"--samples must be at least 1 (got {s.samples})")
-    nominal = solve_one(scenario.case())
-    run = run_monte_carlo(problem, landing_model(scenario, problem.names), s.samples, sampler=s.sampler,
-                          seed=s.seed, chunk=s.chunk, keep_inputs=s.keep_samples, progress=progress)
+    nominal, nominal_note = _nominal_values(scenario, problem)
+    nominal_total = _deterministic(scenario, nominal)
+    dry_total, dry_note = _dry_distance(scenario, nominal, nominal_total)
+    model = landing_model(scenario, problem.names)
+    if sink is not None:
+        def model_and_sink(x: NDArray[np.float64]) -> Mapping[str, NDArray]:
+            y = model(x)
+            sink(x, y)
+            return y
+    run = run_monte_carlo(problem, model if sink is None else model_and_sink, s.samples,
+                          sampler=s.sampler, seed=s.seed, chunk=s.chunk, keep_inputs=s.keep_samples,
+                          progress=progress)
     out = run.outputs
     conf = s.confidence
     pct = {}
@@ -160,15 +215,25 @@ def assess(
         pct[name] = percentiles(xs, PERCENTILES, conf, presorted=True)
         moments[name] = mean_interval(xs, conf)
     n = s.samples
-    overrun = out["margin_m"] < 0
+    # A landing that cannot stop is an overrun whatever its (infinite) margin.
+    overrun = (out["margin_m"] < 0) | out["cannot_stop"]
     resa = float(scenario.values["runway.resa_length"])
-    beyond = out["margin_m"] < -resa
+    beyond = (out["margin_m"] < -resa) | out["cannot_stop"]
     speeds = np.sort(out["runway_end_ground_speed"][overrun & ~out["cannot_stop"]])
+    lda = float(scenario.values["runway.lda"])
     comparisons = []
-    for name, factor, source in COMPARISON_FACTORS:
-        line = float(nominal.total_m[0]) * factor
-        k = int(n - np.searchsorted(sorted_total, line, side="right"))
-        comparisons.append(ComparisonLine(name, factor, source, line, event_probability(k, n, conf)))
+    if np.isfinite(nominal_total):
+        for name, factor, source in COMPARISON_FACTORS:
+            dry = name in _DRY_BASED
+            base = dry_total if dry else nominal_total
+            if not np.isfinite(base):
+                continue
+            line = base * factor
+            k = int(n - np.searchsorted(sorted_total, line, side="right"))
+            comparisons.append(ComparisonLine(
+                name, factor, source, line, event_probability(k, n, conf),
+                basis="the dry-runway distance" if dry and dry_note else "the deterministic distance",
+                lda_m=lda))
     return Assessment(
         scenario=scenario,
         problem=problem,
@@ -184,9 +249,49 @@ def assess(
         overrun_speed_min=float(speeds[0]) if speeds.size else None,
         overrun_speed_max=float(speeds[-1]) if speeds.size else None,
         comparisons=comparisons,
-        nominal_total_m=float(nominal.total_m[0]),
+        nominal_total_m=nominal_total,
         flags={"lift_exceeds_weight": int(out["lift_exceeds_weight"].sum()),
                "cannot_stop": int(out["cannot_stop"].sum())},
         convergence=convergence(out["total_m"], overrun, 0.99),
         record=dict(record or {}),
+        nominal_note=nominal_note,
+        dry_basis_note=dry_note,
+        dry_total_m=dry_total,
     )
+
+
+def _nominal_values(scenario: Scenario, problem: Problem) -> tuple[dict[str, float], str]:
+    """Values for the deterministic line: an uncertain input with no nominal value at its median."""
+    values: dict[str, float] = {}
+    notes = []
+    for name, m in zip(problem.names, problem.marginals, strict=True):
+        if scenario.values.get(name) is None and not m.discrete:
+            values[name] = float(np.asarray(m.ppf(np.array([0.5])))[0])
+            unit = KEYS[name].unit if name in KEYS else ""
+            notes.append(f"{name} at the median of its distribution, {values[name]:.4g} {unit}".rstrip())
+    return values, "; ".join(notes)
+
+
+def _deterministic(scenario: Scenario, values: Mapping[str, float]) -> float:
+    """The total distance of the nominal landing (inf if it cannot stop); refuses lift above weight."""
+    res = solve_landings(scenario.case(values))
+    if res.lift_exceeds_weight[0]:
+        raise SolveError(f"{scenario.source}: lift exceeds weight at touchdown at the nominal inputs "
+                         "(lower aircraft.cl_ground or procedure.touchdown_speed_ratio)")
+    return float(np.inf) if res.cannot_stop[0] else float(res.total_m[0])
+
+
+def _dry_distance(scenario: Scenario, values: Mapping[str, float], total: float) -> tuple[float, str]:
+    """The dry-runway distance the regulatory factors multiply, and a note if it is not ``total``."""
+    code = scenario.values.get("runway.condition_code")
+    mu = scenario.values.get("runway.braking_mu")
+    if code is not None and int(code) < 6:
+        why = f"runway.condition_code {int(code)} is below 6 (dry)"
+    elif code is None and mu is not None and float(mu) < DRY_BRAKING_MU:
+        why = f"runway.braking_mu {float(mu):g} is below the dry threshold {DRY_BRAKING_MU:g}"
+    else:
+        return total, ""
+    dry = _deterministic(scenario, {**values, "runway.condition_code": 6})
+    return dry, (f"{why}: the regulatory factors multiply the same landing on a dry runway (condition "
+                 f"code 6, braking mu {CONDITION_CODE_TABLE[6][2]:.2f} from the documented table), "
+                 f"{dry:.0f} m")

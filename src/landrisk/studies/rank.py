@@ -26,6 +26,7 @@ from numpy.typing import NDArray
 
 from landrisk.errors import LandriskError
 from landrisk.model import KEYS, Scenario, solve_landings
+from landrisk.studies import shown
 from landrisk.studies.assess import AssessSettings, assess
 from landrisk.studies.binding import Branch, discrete_branches, landing_model, limit_state, split_discrete
 from landrisk.uq import (
@@ -167,6 +168,12 @@ class Ranking:
     warnings: list[str] = field(default_factory=list)
     form_importance: dict[str, float] = field(default_factory=dict)  # alpha^2 at the design point
     form_beta: float | None = None
+
+    def __repr__(self) -> str:
+        return shown.repr_of("Ranking", shown.ranking_lines(self))
+
+    def _repr_html_(self) -> str:
+        return shown.html_of("Ranking", shown.ranking_lines(self))
 
     @property
     def reliable(self) -> bool:
@@ -400,6 +407,7 @@ def _monte_carlo_check(scenario: Scenario, problem: Problem, s: RankSettings,
     mc_pct = {p.p: p for p in a.percentiles["total_m"]}
     sur_pct = {p.p: p for p in surrogate.percentiles}
     mean, sd = a.moments["total_m"][0], a.moments["total_m"][1]
+    assert mean is not None and sd is not None  # the check runs on many samples
     p50, p99 = mc_pct[50.0].value, mc_pct[99.0].value
     assert p50 is not None and p99 is not None and sur_pct[50.0].value is not None
     assert sur_pct[99.0].value is not None

@@ -23,6 +23,7 @@ from scipy import stats
 
 from landrisk.errors import LandriskError
 from landrisk.model import Scenario, solve_landings
+from landrisk.studies import shown
 from landrisk.studies.assess import AssessSettings, assess
 from landrisk.studies.binding import Branch, discrete_branches, limit_state, split_discrete
 from landrisk.uq import Problem, normalize_seed
@@ -116,6 +117,11 @@ class RareAssessment:
     cross_check: CrossCheck | None = None
     risk_curve: RiskCurve | None = None
 
+    def __repr__(self) -> str:
+        return shown.repr_of("RareAssessment", shown.rare_lines(self))
+
+    def _repr_html_(self) -> str:
+        return shown.html_of("RareAssessment", shown.rare_lines(self))
 
 def rare_assess(scenario: Scenario, problem: Problem, settings: RareSettings | None = None) -> RareAssessment:
     """P(overrun) of ``scenario`` by FORM, importance sampling or subset simulation (see module doc)."""

@@ -25,6 +25,7 @@ if TYPE_CHECKING:
     from landrisk.uq.sensitivity import MonteCarloSobol, sobol_monte_carlo
     from landrisk.uq.stats import (
         EventProbability,
+        Moments,
         Percentile,
         convergence,
         event_probability,
@@ -32,6 +33,7 @@ if TYPE_CHECKING:
         mean_interval,
         percentiles,
         wilson_interval,
+        zero_event_bound,
     )
 
 _WHERE = {
@@ -41,8 +43,9 @@ _WHERE = {
     "landrisk.uq.montecarlo": ("MonteCarloRun", "run_monte_carlo", "sample"),
     "landrisk.uq.sampling": ("SAMPLERS", "normalize_seed", "uniform_chunks"),
     "landrisk.uq.sensitivity": ("MonteCarloSobol", "sobol_monte_carlo"),
-    "landrisk.uq.stats": ("EventProbability", "Percentile", "convergence", "event_probability",
-                          "exceedance_curve", "mean_interval", "percentiles", "wilson_interval"),
+    "landrisk.uq.stats": ("EventProbability", "Moments", "Percentile", "convergence", "event_probability",
+                          "exceedance_curve", "mean_interval", "percentiles", "wilson_interval",
+                          "zero_event_bound"),
 }
 __all__ = [
     "FAMILIES",
@@ -51,6 +54,7 @@ __all__ = [
     "ChaosSpace",
     "EventProbability",
     "Marginal",
+    "Moments",
     "MonteCarloRun",
     "MonteCarloSobol",
     "Percentile",
@@ -71,6 +75,7 @@ __all__ = [
     "sobol_monte_carlo",
     "uniform_chunks",
     "wilson_interval",
+    "zero_event_bound",
 ]
 
 

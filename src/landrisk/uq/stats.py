@@ -8,6 +8,9 @@
   Assoc. 22:209) or Clopper-Pearson, through ``scipy.stats.binomtest``. With no event the estimate is
   only an upper bound: the one-sided Clopper-Pearson bound 1 - (1 - conf)^(1/n), about 3/n at 95 %
   (the "rule of three").
+- Infinite values (an outcome beyond every finite threshold) are kept in percentiles, whose value or
+  upper end is then flagged as infinite (``infinite``, ``hi_infinite``; the number is None), and kept out
+  of means and standard deviations, which are those of the finite values with the count left out.
 - For quasi-random (Sobol, Halton) and Latin-hypercube samples, these intervals, derived for independent
   samples, are conservative approximations: such points are more even than random ones.
 """
@@ -15,6 +18,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import NamedTuple
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -22,6 +26,7 @@ from scipy import stats
 
 __all__ = [
     "EventProbability",
+    "Moments",
     "Percentile",
     "convergence",
     "event_probability",
@@ -29,22 +34,29 @@ __all__ = [
     "mean_interval",
     "percentiles",
     "wilson_interval",
+    "zero_event_bound",
 ]
 
 
 @dataclass(frozen=True)
 class Percentile:
-    """A percentile estimate: p in percent, the value and its interval (NaN-free: None if unsupported)."""
+    """A percentile estimate: p in percent, the value and its interval (NaN-free: None if unsupported).
+
+    ``infinite``: the percentile itself is +inf (value None); ``hi_infinite``: the upper end of its
+    interval is +inf (hi None).
+    """
 
     p: float
     value: float | None
     lo: float | None
     hi: float | None
     supported: bool
+    infinite: bool = False
+    hi_infinite: bool = False
 
     def as_dict(self) -> dict[str, float | bool | None]:
         return {"p": self.p, "value": self.value, "ci_lo": self.lo, "ci_hi": self.hi,
-                "supported": self.supported}
+                "supported": self.supported, "infinite": self.infinite, "ci_hi_infinite": self.hi_infinite}
 
 
 def _order_statistic_indices(n: int, q: float, conf: float) -> tuple[int, int]:
@@ -59,11 +71,22 @@ def _order_statistic_indices(n: int, q: float, conf: float) -> tuple[int, int]:
 
 
 def _linear_quantile(xs: NDArray[np.float64], q: float) -> float:
-    """numpy's default ("linear", Hyndman & Fan definition 7) quantile of an ascending array."""
+    """numpy's default ("linear", Hyndman & Fan definition 7) quantile of an ascending array.
+
+    An infinite order statistic with a nonzero weight gives +inf (never inf - inf or 0 * inf).
+    """
     h = (xs.size - 1) * q
     lo = int(np.floor(h))
     hi = min(lo + 1, xs.size - 1)
-    return float(xs[lo] + (h - lo) * (xs[hi] - xs[lo]))
+    a, b = float(xs[lo]), float(xs[hi])
+    w = h - lo
+    if w == 0.0 or a == b:
+        return a
+    return a + w * (b - a)
+
+
+def _finite_or_none(x: float) -> float | None:
+    return x if np.isfinite(x) else None
 
 
 def percentiles(
@@ -87,7 +110,9 @@ def percentiles(
             out.append(Percentile(float(p), None, None, None, False))
             continue
         value = _linear_quantile(xs, q)
-        out.append(Percentile(float(p), value, float(xs[lo]), float(xs[hi]), True))
+        out.append(Percentile(float(p), _finite_or_none(value), _finite_or_none(float(xs[lo])),
+                              _finite_or_none(float(xs[hi])), True, bool(np.isposinf(value)),
+                              bool(np.isposinf(xs[hi]))))
     return out
 
 
@@ -104,9 +129,13 @@ class EventProbability:
     method: str
     conf: float
 
-    def as_dict(self) -> dict[str, float | int | bool | str]:
-        return {"events": self.events, "samples": self.n, "estimate": self.estimate, "ci_lo": self.lo,
-                "ci_hi": self.hi, "upper_bound_only": self.upper_bound_only, "method": self.method,
+    def as_dict(self) -> dict[str, float | int | bool | str | None]:
+        """JSON-ready: with no event the estimate is None (not 0, which a sum over cases would add) and
+        ``upper_bound`` holds the one-sided bound; otherwise ``upper_bound`` is None."""
+        return {"events": self.events, "samples": self.n,
+                "estimate": None if self.upper_bound_only else self.estimate, "ci_lo": self.lo,
+                "ci_hi": self.hi, "upper_bound_only": self.upper_bound_only,
+                "upper_bound": self.hi if self.upper_bound_only else None, "method": self.method,
                 "confidence": self.conf}
 
     def text(self) -> str:
@@ -125,19 +154,48 @@ def event_probability(k: int, n: int, conf: float = 0.95, method: str = "wilson"
     if n <= 0 or not 0 <= k <= n:
         raise ValueError("need 0 <= k <= n and n > 0")
     if k == 0:
-        upper = 1.0 - (1.0 - conf) ** (1.0 / n)
+        upper = zero_event_bound(n, conf)
         return EventProbability(0, n, 0.0, 0.0, upper, True, "clopper-pearson", conf)
     ci = stats.binomtest(int(k), int(n)).proportion_ci(confidence_level=conf, method=method)
     return EventProbability(int(k), int(n), k / n, float(ci.low), float(ci.high), False, method, conf)
 
 
-def mean_interval(x: ArrayLike, conf: float = 0.95) -> tuple[float, float, float, float]:
-    """Mean, standard deviation and the normal-approximation interval of the mean."""
+class Moments(NamedTuple):
+    """Mean, standard deviation and the interval of the mean, of the finite values of a sample.
+
+    ``sd``, ``lo`` and ``hi`` are None when fewer than two finite values exist (they cannot be
+    estimated), ``mean`` when none does; ``used`` finite values went in, ``excluded`` infinite ones not.
+    """
+
+    mean: float | None
+    sd: float | None
+    lo: float | None
+    hi: float | None
+    used: int = 0
+    excluded: int = 0
+
+
+def mean_interval(x: ArrayLike, conf: float = 0.95) -> Moments:
+    """Mean, standard deviation and the normal-approximation interval of the mean of the finite values.
+
+    Infinite values are left out and counted (``excluded``); with fewer than two finite values the
+    standard deviation and the interval cannot be estimated and are None (never 0 or NaN).
+    """
     xs = np.asarray(x, dtype=float)
-    mean = float(xs.mean())
-    sd = float(xs.std(ddof=1)) if xs.size > 1 else 0.0
-    half = float(stats.norm.ppf(0.5 + conf / 2) * sd / np.sqrt(xs.size))
-    return mean, sd, mean - half, mean + half
+    finite = np.isfinite(xs)
+    if np.any(np.isnan(xs)):
+        raise ValueError("mean_interval: the sample holds NaN")
+    used = xs[finite]
+    n = int(used.size)
+    excluded = int(xs.size - n)
+    if n == 0:
+        return Moments(None, None, None, None, 0, excluded)
+    mean = float(used.mean())
+    if n < 2:
+        return Moments(mean, None, None, None, n, excluded)
+    sd = float(used.std(ddof=1))
+    half = float(stats.norm.ppf(0.5 + conf / 2) * sd / np.sqrt(n))
+    return Moments(mean, sd, mean - half, mean + half, n, excluded)
 
 
 def wilson_interval(
@@ -157,11 +215,24 @@ def wilson_interval(
 def exceedance_curve(
     sorted_x: NDArray[np.float64], grid: ArrayLike, conf: float = 0.95
 ) -> tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]]:
-    """P(X > g) at each grid value g, with pointwise Wilson intervals, from an ascending sample."""
+    """P(X > g) at each grid value g, with pointwise Wilson intervals, from an ascending sample.
+
+    Where no sample exceeds g, the upper end is the one-sided Clopper-Pearson bound 1 - (1 - conf)^(1/n),
+    the bound :func:`event_probability` gives for no event (so a figure and a report agree).
+    """
     n = sorted_x.size
     k = n - np.searchsorted(sorted_x, np.asarray(grid, dtype=float), side="right")
     lo, hi = wilson_interval(k, n, conf)
+    hi = np.where(k == 0, zero_event_bound(n, conf), hi)
     return k / n, lo, hi
+
+
+def zero_event_bound(n: int, conf: float = 0.95) -> float:
+    """The one-sided Clopper-Pearson upper bound on P(event) with no event in ``n`` samples.
+
+    1 - (1 - conf)^(1/n) (Clopper & Pearson 1934, Biometrika 26:404), about 3/n at 95 %.
+    """
+    return 1.0 - (1.0 - conf) ** (1.0 / n)
 
 
 def convergence(
@@ -174,5 +245,5 @@ def convergence(
     total = x.size
     sizes = np.unique(np.geomspace(min(100, total), total, points).astype(int))
     cum_events = np.cumsum(event)
-    quant = np.array([np.quantile(x[:m], q) for m in sizes])
+    quant = np.array([_linear_quantile(np.sort(x[:m]), q) for m in sizes])
     return {"n": sizes.astype(float), "p_event": cum_events[sizes - 1] / sizes, "quantile": quant}
