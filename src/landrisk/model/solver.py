@@ -258,12 +258,14 @@ def _integrals(
     a_min: Array, a_max: Array,
 ) -> tuple[Array, Array]:
     """:func:`_closed_form` where it is well conditioned, :func:`_quadrature` (high order) elsewhere."""
-    dist, time, bad = _closed_form(lo, hi, a, b, c, w, a_lo, a_hi)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        dist, time, bad = _closed_form(lo, hi, a, b, c, w, a_lo, a_hi)
     bad &= a_max < 0  # where a >= 0 somewhere the result is infinite anyway (flagged by the caller)
     if bad.any():
         i = np.flatnonzero(bad)
-        dist[i], time[i] = _quadrature(lo[i], hi[i], a[i], b[i], c[i], w[i], a_min[i], a_max[i],
-                                       FALLBACK_ORDER)
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            dist[i], time[i] = _quadrature(lo[i], hi[i], a[i], b[i], c[i], w[i], a_min[i], a_max[i],
+                                           FALLBACK_ORDER)
     return dist, time
 
 
@@ -782,20 +784,34 @@ def _solve_chunk(c: LandingCase, method: str) -> dict[str, NDArray]:
     if np.any(v_td - w <= 0):
         n = int(np.count_nonzero(v_td - w <= 0))
         raise ValueError(f"headwind at or above the touchdown speed in {n} landing(s)")
-    approach, flare = air_distance_flare(
-        c.screen_height, c.approach_angle, c.approach_speed_ratio * vs, c.flare_speed_ratio * vs,
-        c.flare_load_factor, w, c.g,
-    )
     given = c.touchdown_given
+    # The flare model needs h / tan(gamma) to be a number: an angle so shallow that it is not (or that
+    # is zero once in radians) is refused with its value rather than carried as inf or NaN.
+    with np.errstate(divide="ignore", over="ignore"):
+        reach = c.screen_height / np.tan(c.approach_angle)
+    shallow = ~given & ~(reach < np.inf)
+    if shallow.any():
+        angle = float(np.degrees(np.broadcast_to(c.approach_angle, shallow.shape)[shallow][0]))
+        raise ValueError(
+            f"procedure.approach_angle = {angle:.3g} deg in {int(np.count_nonzero(shallow))} landing(s): the "
+            "approach path is too shallow for the air distance to be a number (a few tenths of a degree "
+            "or more is usual)"
+        )
+    approach, flare = air_distance_flare(
+        c.screen_height, np.where(given, 0.05, c.approach_angle), c.approach_speed_ratio * vs,
+        c.flare_speed_ratio * vs, c.flare_load_factor, w, c.g,
+    )
     approach = np.where(given, 0.0, approach)
     flare = np.where(given, 0.0, flare)
+    backwards = (approach < 0) | (flare < 0)
+    if backwards.any():
+        raise ValueError(f"headwind at or above the approach or flare airspeed in "
+                         f"{int(np.count_nonzero(backwards))} landing(s): the flare model needs a positive "
+                         "ground speed (lower the headwind or give procedure.touchdown_distance)")
     air = np.where(given, c.touchdown_distance, approach + flare)
     if not np.all(np.isfinite(air)):
-        bad = ~np.isfinite(air)
-        angle = float(np.degrees(np.broadcast_to(c.approach_angle, air.shape)[bad][0]))
-        raise ValueError(f"the air distance is beyond floating-point range in {int(np.count_nonzero(bad))} "
-                         f"landing(s) (approach angle {angle:.3g} deg: the approach path is too shallow to "
-                         "reach the runway)")
+        raise ValueError("procedure.approach_angle: the air distance overflows in "
+                         f"{int(np.count_nonzero(~np.isfinite(air)))} landing(s) (approach path too shallow)")
 
     f = _forces(c)
     lifted = f.lift * v_td * v_td > f.g_cos
