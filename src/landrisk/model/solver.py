@@ -5,16 +5,23 @@ Phases (see DESIGN.md and the physics modules for the sources):
 1. **Air distance** from the screen height to touchdown, by the flare model
    (:func:`landrisk.physics.air_distance_flare`) or the given touchdown point.
 2. **Free roll** for the reaction time after touchdown, brakes off: idle thrust, drag, rolling friction
-   and slope. Integrated in time by the classical fourth-order Runge-Kutta method with a fixed number of
-   steps (the motion changes on a time scale of tens of seconds, the step is a fraction of a second).
+   and slope. In one regime of the force law dV/dt = A + B V + C V^2 is a Riccati equation with
+   constant coefficients, solved exactly (:func:`_riccati`); across zero airspeed or the lift-off speed
+   regime by regime, the time to each break point in closed form.
 3. **Braking roll** from the end of the free roll to zero ground speed. With a the acceleration,
    distance and time are integrals in airspeed, S = int (V - V_w) / (-a(V)) dV and t = int dV / (-a(V)),
    split where the force law stops being smooth: at the reverser cut-off, at zero airspeed (tailwind)
    and where lift takes the whole weight. On each piece a is a quadratic in V and the integrals are taken
-   by Gauss-Legendre quadrature, which converges geometrically for this rational integrand.
+   in closed form or by their power series (:func:`_closed_form`), with high-order Gauss-Legendre
+   quadrature where the closed form would lose digits.
+
+``method="quadrature"`` keeps the earlier solver (8-point Gauss-Legendre braking, fixed-step RK4 free
+roll) for comparison and benchmarking.
 
 Where the deceleration is not negative over the whole braking range the aircraft cannot stop: its braking
-distance is infinite and the landing is flagged ``cannot_stop``. Where lift exceeds weight at touchdown
+distance is infinite and the landing is flagged ``cannot_stop`` (so is a landing whose speed runs away in
+the free roll, thrust growing faster than drag: free roll, braking and time infinite). Where lift
+exceeds weight at touchdown
 the normal force is held at zero until it returns (no friction meanwhile) and the landing is flagged
 ``lift_exceeds_weight``; :func:`solve_one` refuses both.
 """
