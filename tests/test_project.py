@@ -105,3 +105,9 @@ def test_readme_tour_commands_run(tmp_path: Path, monkeypatch) -> None:
         assert args[0] == "landrisk", line
         result = CliRunner().invoke(main, args[1:])
         assert result.exit_code == 0, f"{line}: {result.output}"
+
+
+def test_mypy_is_clean() -> None:
+    # The package ships py.typed: its type hints are checked (configuration in pyproject.toml).
+    out = subprocess.run([_tool("mypy")], capture_output=True, text=True, check=False, cwd=ROOT)
+    assert out.returncode == 0, out.stdout + out.stderr

@@ -1,28 +1,37 @@
 """The landing-distance solver: N landings in one call, each phase a separate distance.
 
-Phases (see DESIGN.md and the physics modules for the sources):
+Phases (the physics modules give the published source of each relation):
 
 1. **Air distance** from the screen height to touchdown, by the flare model
    (:func:`landrisk.physics.air_distance_flare`) or the given touchdown point.
 2. **Free roll** for the reaction time after touchdown, brakes off: idle thrust, drag, rolling friction
-   and slope. Integrated in time by the classical fourth-order Runge-Kutta method with a fixed number of
-   steps (the motion changes on a time scale of tens of seconds, the step is a fraction of a second).
+   and slope. In one regime of the force law dV/dt = A + B V + C V^2 is a Riccati equation with
+   constant coefficients, solved exactly (:func:`_riccati`); across zero airspeed or the lift-off speed
+   regime by regime, the time to each break point in closed form.
 3. **Braking roll** from the end of the free roll to zero ground speed. With a the acceleration,
    distance and time are integrals in airspeed, S = int (V - V_w) / (-a(V)) dV and t = int dV / (-a(V)),
    split where the force law stops being smooth: at the reverser cut-off, at zero airspeed (tailwind)
    and where lift takes the whole weight. On each piece a is a quadratic in V and the integrals are taken
-   by Gauss-Legendre quadrature, which converges geometrically for this rational integrand.
+   in closed form or by their power series (:func:`_closed_form`), with high-order Gauss-Legendre
+   quadrature where the closed form would lose digits.
+
+``method="quadrature"`` keeps the earlier solver (8-point Gauss-Legendre braking, fixed-step RK4 free
+roll) for comparison and benchmarking.
 
 Where the deceleration is not negative over the whole braking range the aircraft cannot stop: its braking
-distance is infinite and the landing is flagged ``cannot_stop``. Where lift exceeds weight at touchdown
+distance is infinite and the landing is flagged ``cannot_stop`` (so is a landing whose speed runs away in
+the free roll, thrust growing faster than drag: free roll, braking and time infinite). Where lift
+exceeds weight at touchdown
 the normal force is held at zero until it returns (no friction meanwhile) and the landing is flagged
 ``lift_exceeds_weight``; :func:`solve_one` refuses both.
 """
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, fields
 from itertools import pairwise
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -39,10 +48,18 @@ from landrisk.physics import (
 )
 from landrisk.physics.ground_roll import quadratic_acceleration_coefficients
 
-__all__ = ["GAUSS_LEGENDRE_ORDER", "RK4_STEPS", "LandingResult", "solve_landings", "solve_one"]
+__all__ = ["GAUSS_LEGENDRE_ORDER", "METHODS", "RK4_STEPS", "LandingResult", "solve_landings", "solve_one"]
 
-#: Gauss-Legendre nodes per smooth piece of the braking roll.
+#: Solution methods: ``"closed"`` (closed forms, the default) and ``"quadrature"`` (the earlier solver:
+#: Gauss-Legendre on the braking roll, fixed-step Runge-Kutta on the free roll), kept for comparison.
+METHODS = ("closed", "quadrature")
+#: Gauss-Legendre nodes per smooth piece of the braking roll (``method="quadrature"``).
 GAUSS_LEGENDRE_ORDER = 8
+#: Nodes of the quadrature that replaces the closed form where the latter would lose digits.
+FALLBACK_ORDER = 20
+#: The closed form is used where its rounding error stays below this multiple of the unit round-off
+#: (estimated per piece from the magnitude of the terms it subtracts); elsewhere the quadrature.
+CONDITION_LIMIT = 1e3
 #: Least number of Runge-Kutta steps over the free roll, and the longest step [s]. The count is set per
 #: landing from its own reaction time, so a landing's result never depends on the others in the call.
 RK4_STEPS = 3
@@ -52,7 +69,7 @@ RK4_KINK_STEP = 0.002
 #: Landings evaluated together (keeps the temporaries in cache; results do not depend on it).
 CHUNK = 1 << 14
 
-_GL_X, _GL_W = np.polynomial.legendre.leggauss(GAUSS_LEGENDRE_ORDER)
+_GL = {n: np.polynomial.legendre.leggauss(n) for n in (GAUSS_LEGENDRE_ORDER, FALLBACK_ORDER)}
 
 Array = NDArray[np.float64]
 Thrust = tuple[Array, Array, Array]
@@ -158,6 +175,8 @@ class _Piece:
     a: Array
     b: Array
     c: Array
+    a_lo: Array  # a at lo
+    a_hi: Array  # a at hi
     a_min: Array
     a_max: Array
 
@@ -197,31 +216,36 @@ def _pieces(
             fr, mur, sw, th = f, mu, switch, thrust_hi
         mid = 0.5 * (hi + lo)
         thrust = tuple(np.where(mid > sw, h, i) for h, i in zip(th, fr.idle, strict=True))
-        a, b, c = quadratic_acceleration_coefficients(
-            airflow_sign=np.where(mid >= 0, 1.0, -1.0),
-            wheels_loaded=fr.g_cos - fr.lift * mid * np.abs(mid) > 0,
-            thrust_per_mass=thrust,  # type: ignore[arg-type]
-            drag_per_mass=fr.drag, lift_per_mass=fr.lift, mu=mur, g_cos=fr.g_cos, g_sin=fr.g_sin,
-        )
-        a_min, a_max = _extremes(lo, hi, a, b, c)
-        pieces.append(_Piece(rows, used, lo, hi, a, b, c, a_min, a_max))
+        a, b, c = _coefficients(mid, fr, mur, thrust)  # type: ignore[arg-type]
+        ext = _extremes(lo, hi, a, b, c)
+        pieces.append(_Piece(rows, used, lo, hi, a, b, c, *ext))
     return pieces
 
 
+def _coefficients(v: Array, f: _Forces, mu: Array, thrust: Thrust) -> tuple[Array, Array, Array]:
+    """(A, B, C) of the quadratic force law of the regime at airspeed ``v`` (sign of V, wheels loaded)."""
+    return quadratic_acceleration_coefficients(
+        airflow_sign=np.where(v >= 0, 1.0, -1.0),
+        wheels_loaded=f.g_cos - f.lift * v * np.abs(v) > 0,
+        thrust_per_mass=thrust, drag_per_mass=f.drag, lift_per_mass=f.lift, mu=mu, g_cos=f.g_cos,
+        g_sin=f.g_sin,
+    )
+
+
 def _roll_integrals(
-    v_lo: Array, v_hi: Array, headwind: Array, f: _Forces, mu: Array, thrust_hi: Thrust, switch: Array
+    v_lo: Array, v_hi: Array, headwind: Array, f: _Forces, mu: Array, thrust_hi: Thrust, switch: Array,
+    method: str = "closed",
 ) -> tuple[Array, Array, NDArray[np.bool_]]:
     """Distance and time to slow from airspeed ``v_hi`` to ``v_lo``, and whether a < 0 throughout.
 
-    The range is split by :func:`_pieces`; each piece is integrated by :func:`_quadrature`.
+    The range is split by :func:`_pieces`; each piece is integrated by :func:`_piece_integrals`.
     """
     dist = np.zeros_like(v_lo)
     time = np.zeros_like(v_lo)
     ok = np.ones(v_lo.shape, dtype=bool)
     for p in _pieces(v_lo, v_hi, f, mu, thrust_hi, switch):
         ok[p.rows] &= (p.a_max < 0) | ~p.used
-        with np.errstate(divide="ignore", invalid="ignore"):
-            d, t = _quadrature(p.lo, p.hi, p.a, p.b, p.c, headwind[p.rows], p.a_min, p.a_max)
+        d, t = _piece_integrals(p, headwind[p.rows], method)
         dist[p.rows] += np.where(p.used, d, 0.0)
         time[p.rows] += np.where(p.used, t, 0.0)
     dist = np.where(ok, dist, np.inf)
@@ -229,16 +253,141 @@ def _roll_integrals(
     return dist, time, ok
 
 
-def _extremes(lo: Array, hi: Array, a: Array, b: Array, c: Array) -> tuple[Array, Array]:
-    """Least and largest value of a + b V + c V^2 on [lo, hi] (the ends, and the vertex if inside)."""
+def _piece_integrals(p: _Piece, w: Array, method: str) -> tuple[Array, Array]:
+    """int (V - w)/(-a) dV and int dV/(-a) over each piece (meaningful where a < 0 on it)."""
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        if method == "quadrature":
+            return _quadrature(p.lo, p.hi, p.a, p.b, p.c, w, p.a_min, p.a_max, GAUSS_LEGENDRE_ORDER)
+        return _integrals(p.lo, p.hi, p.a, p.b, p.c, w, p.a_lo, p.a_hi, p.a_min, p.a_max)
+
+
+def _integrals(
+    lo: Array, hi: Array, a: Array, b: Array, c: Array, w: Array, a_lo: Array, a_hi: Array,
+    a_min: Array, a_max: Array,
+) -> tuple[Array, Array]:
+    """:func:`_closed_form` where it is well conditioned, :func:`_quadrature` (high order) elsewhere."""
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        dist, time, bad = _closed_form(lo, hi, a, b, c, w, a_lo, a_hi)
+    bad &= a_max < 0  # where a >= 0 somewhere the result is infinite anyway (flagged by the caller)
+    if bad.any():
+        i = np.flatnonzero(bad)
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            dist[i], time[i] = _quadrature(lo[i], hi[i], a[i], b[i], c[i], w[i], a_min[i], a_max[i],
+                                           FALLBACK_ORDER)
+    return dist, time
+
+
+def _closed_form(
+    lo: Array, hi: Array, a: Array, b: Array, c: Array, w: Array, a_lo: Array, a_hi: Array
+) -> tuple[Array, Array, NDArray[np.bool_]]:
+    """Closed-form S = int (V - w)/(-q) dV and T = int dV/(-q) on [lo, hi], q = a + b V + c V^2 < 0.
+
+    With the midpoint m, half-width h and x = (V - m)/h, q = q(m) p(x), p(x) = 1 + beta x + gamma x^2
+    (beta = q'(m) h/q(m), gamma = c h^2/q(m)), p > 0 on [-1, 1]. Then T = h/(-q(m)) I0 and
+    S = h/(-q(m)) ((m - w) I0 + h I1), with I0 = int dx/p and I1 = int x dx/p over [-1, 1]. From the
+    standard integrals of 1/(a + b x + c x^2) and x/(a + b x + c x^2) (Gradshteyn & Ryzhik, *Table of
+    Integrals, Series, and Products*, 7th ed. 2007, 2.172 and 2.175.1; Abramowitz & Stegun 1964, 3.3.16
+    and 3.3.17), with the discriminant delta = beta^2 - 4 gamma and r = sqrt|delta|:
+
+    - delta < 0: I0 = 2 atan2(r, 1 - gamma) / r (the two arctangents of 2.172 combined into one);
+    - delta > 0: I0 = ln((1 - gamma + r)/(1 - gamma - r)) / r, written as
+      log1p(2 r (1 - gamma + r) / (p(1) p(-1))) / r since (1 - gamma)^2 - delta = p(1) p(-1);
+    - delta = 0: I0 = 2 / (1 - gamma);
+    - I1 = (ln(p(1)/p(-1)) - beta I0) / (2 gamma), the logarithm as log1p(2 beta / p(-1)).
+
+    None of these loses digits as delta -> 0 (atan2 and log1p are exact to first order). I1 does as
+    gamma -> 0 (c = 0 exactly is the limit), and the sum (m - w) I0 + h I1 does where a vanishes at the
+    low end. The rounding error of the result relative to it is bounded by the size of the terms
+    subtracted; where that bound exceeds CONDITION_LIMIT the landing is returned in ``bad`` for the
+    quadrature. Bit-reproducible per landing: every operation is element by element.
+    """
+    mid = 0.5 * (hi + lo)
+    h = 0.5 * (hi - lo)
+    qm = a + mid * (b + mid * c)
+    k = h / qm
+    beta = (b + 2.0 * c * mid) * k
+    gam = c * h * k
+    delta = beta * beta - 4.0 * gam
+    r = np.sqrt(np.abs(delta))
+    xi = mid - w
+    # Reciprocal roots u of p (p = (1 - u1 x)(1 - u2 x)): |u| = sqrt(gamma) if complex, else
+    # (|beta| + r)/2. Where max |u| <= SERIES_RADIUS, the power series of 1/p.
+    series = np.where(delta < 0, gam <= SERIES_RADIUS**2, np.abs(beta) + r <= 2.0 * SERIES_RADIUS)
+    bad = np.zeros(lo.shape, dtype=bool)
+    if series.all():
+        i0, i1 = _series(beta, gam)
+        comb = xi * i0 + h * i1
+    else:
+        i0 = np.empty_like(lo)
+        comb = np.empty_like(lo)
+        if series.any():
+            j = np.flatnonzero(series)
+            i0[j], i1 = _series(beta[j], gam[j])
+            comb[j] = xi[j] * i0[j] + h[j] * i1
+        j = np.flatnonzero(~series)
+        i0[j], comb[j], bad[j] = _closed_terms(beta[j], gam[j], delta[j], r[j], a_lo[j] / qm[j],
+                                               a_hi[j] / qm[j], xi[j], h[j])
+    return -k * comb, -k * i0, bad
+
+
+#: Largest reciprocal root |u| of p for which the power series is used, and its number of terms:
+#: the terms fall like |u|^n, 2 |u|^N / (1 - |u|) < 1e-16 of I0 ~ 2.
+SERIES_RADIUS = 0.12
+SERIES_TERMS = 19
+
+
+def _series(beta: Array, gam: Array) -> tuple[Array, Array]:
+    """I0 and I1 from 1/p(x) = sum h_n x^n, h_n = -beta h_(n-1) - gamma h_(n-2) (h_0 = 1, h_1 = -beta),
+    int_-1^1 x^n dx = 2/(n + 1) for even n, 0 for odd n; a fixed number of terms."""
+    nb, ng = -beta, -gam
+    h0 = np.ones_like(beta)
+    h1 = nb
+    i0 = 2.0 * h0
+    i1 = (2.0 / 3.0) * h1
+    for n in range(2, SERIES_TERMS):
+        h0, h1 = h1, nb * h1 + ng * h0
+        if n % 2 == 0:
+            i0 = i0 + (2.0 / (n + 1)) * h1
+        else:
+            i1 = i1 + (2.0 / (n + 2)) * h1
+    return i0, i1
+
+
+def _closed_terms(
+    beta: Array, gam: Array, delta: Array, r: Array, p_lo: Array, p_hi: Array, xi: Array, h: Array
+) -> tuple[Array, Array, NDArray[np.bool_]]:
+    """I0, (m - w) I0 + h I1 and the ill-conditioned rows, by the closed forms of :func:`_closed_form`."""
+    omg = 1.0 - gam
+    neg = delta < 0
+    i0 = np.empty_like(r)
+    j = np.flatnonzero(neg)
+    if j.size:
+        # atan2(r, 1 - gamma) = atan(r / (1 - gamma)) for 1 - gamma > 0, the usual case.
+        o, rj = omg[j], r[j]
+        i0[j] = 2.0 * np.where(o > 0, np.arctan(rj / np.where(o > 0, o, 1.0)), np.arctan2(rj, o)) / rj
+    j = np.flatnonzero(~neg)
+    if j.size:
+        rj = r[j]
+        i0[j] = np.log1p(2.0 * rj * (omg[j] + rj) / (p_lo[j] * p_hi[j])) / rj
+    i0 = np.where(r > 0, i0, 2.0 / omg)
+    ell = np.log(p_hi / p_lo)  # ln p(1)/p(-1); absolute error ~ 1 ulp, counted in err below
+    bi0 = beta * i0
+    comb = xi * i0 + h * (ell - bi0) / (2.0 * gam)
+    err = h * (1.0 + np.abs(ell) + np.abs(bi0)) / (2.0 * np.abs(gam)) + xi * i0
+    bad = ~((err <= CONDITION_LIMIT * comb) & (comb < np.inf))  # also where not a finite number
+    return i0, comb, bad
+
+
+def _extremes(lo: Array, hi: Array, a: Array, b: Array, c: Array) -> tuple[Array, Array, Array, Array]:
+    """a + b V + c V^2 at lo and at hi, and its least and largest value on [lo, hi] (vertex if inside)."""
     a_lo = a + lo * (b + lo * c)
     a_hi = a + hi * (b + hi * c)
     low, high = np.minimum(a_lo, a_hi), np.maximum(a_lo, a_hi)
-    with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         vertex = -b / (2.0 * c)
         a_v = a - b * b / (4.0 * c)
     inside = (c != 0) & (vertex > lo) & (vertex < hi)
-    return np.where(inside & (c > 0), np.minimum(low, a_v), low), np.where(
+    return a_lo, a_hi, np.where(inside & (c > 0), np.minimum(low, a_v), low), np.where(
         inside & (c < 0), np.maximum(high, a_v), high
     )
 
@@ -247,34 +396,40 @@ def _extremes(lo: Array, hi: Array, a: Array, b: Array, c: Array) -> tuple[Array
 #: it would otherwise slow the convergence of the quadrature (Gauss-Legendre error ~ rho^(-2n), rho the
 #: Bernstein-ellipse parameter of the nearest pole).
 REFINE_RATIO = 4.0
-_MAX_REFINE = 40
+#: Bisection depth limit: a piece still refining then is integrated as it is (each level halves the
+#: distance to the zero of a, so 60 levels reach 1e-18 of the piece; only pieces next to that zero split).
+_MAX_REFINE = 60
 
 
 def _quadrature(
-    lo: Array, hi: Array, a: Array, b: Array, c: Array, w: Array, a_min: Array, a_max: Array
+    lo: Array, hi: Array, a: Array, b: Array, c: Array, w: Array, a_min: Array, a_max: Array,
+    order: int = GAUSS_LEGENDRE_ORDER,
 ) -> tuple[Array, Array]:
     """int (V - w)/(-a) dV and int dV/(-a) over [lo, hi] with a = a + b V + c V^2 < 0 on it.
 
     Gauss-Legendre on each piece; pieces where |a| changes by more than REFINE_RATIO are bisected
-    (only those landings). The nodes are summed one by one, and a landing's pieces in a fixed order, so
-    that its result does not depend on the other landings evaluated with it.
+    (only those landings), at most _MAX_REFINE times; pieces with a >= 0 or a bound that is not finite
+    are not refined (their result is infinite or undefined and flagged by the caller). The nodes are
+    summed one by one, and a landing's pieces in a fixed order, so that its result does not depend on
+    the other landings evaluated with it.
     """
     n = lo.size
     dist = np.zeros(n)
     time = np.zeros(n)
     idx = np.arange(n)
     for depth in range(_MAX_REFINE):
-        fine = (a_min >= REFINE_RATIO * a_max) | (a_max >= 0) | (depth == _MAX_REFINE - 1)
+        fine = ~((a_min < REFINE_RATIO * a_max) & (a_max < 0) & np.isfinite(lo) & np.isfinite(hi))
+        fine |= depth == _MAX_REFINE - 1
         if fine.all():
             if depth == 0:
-                return _gauss_legendre(lo, hi, a, b, c, w)
-            d, t = _gauss_legendre(lo, hi, a[idx], b[idx], c[idx], w[idx])
+                return _gauss_legendre(lo, hi, a, b, c, w, order)
+            d, t = _gauss_legendre(lo, hi, a[idx], b[idx], c[idx], w[idx], order)
             dist += np.bincount(idx, d, minlength=n)
             time += np.bincount(idx, t, minlength=n)
             break
         if fine.any():
             j = idx[fine]
-            d, t = _gauss_legendre(lo[fine], hi[fine], a[j], b[j], c[j], w[j])
+            d, t = _gauss_legendre(lo[fine], hi[fine], a[j], b[j], c[j], w[j], order)
             dist += np.bincount(j, d, minlength=n)
             time += np.bincount(j, t, minlength=n)
         keep = ~fine
@@ -283,16 +438,18 @@ def _quadrature(
         idx = np.concatenate([idx2, idx2])
         lo = np.concatenate([lo[keep], mid])
         hi = np.concatenate([mid, hi[keep]])
-        a_min, a_max = _extremes(lo, hi, a[idx], b[idx], c[idx])
+        _, _, a_min, a_max = _extremes(lo, hi, a[idx], b[idx], c[idx])
     return dist, time
 
 
-def _gauss_legendre(lo: Array, hi: Array, a: Array, b: Array, c: Array, w: Array) -> tuple[Array, Array]:
+def _gauss_legendre(
+    lo: Array, hi: Array, a: Array, b: Array, c: Array, w: Array, order: int
+) -> tuple[Array, Array]:
     half = 0.5 * (hi - lo)
     mid = 0.5 * (hi + lo)
     d_sum = np.zeros_like(half)
     t_sum = np.zeros_like(half)
-    for x_j, w_j in zip(_GL_X, _GL_W, strict=True):
+    for x_j, w_j in zip(*_GL[order], strict=True):
         v = mid + half * x_j
         inv = w_j / (a + v * (b + v * c))  # weight / a at the node (negative)
         t_sum -= inv
@@ -300,28 +457,221 @@ def _gauss_legendre(lo: Array, hi: Array, a: Array, b: Array, c: Array, w: Array
     return half * d_sum, half * t_sum
 
 
+# --- Free roll ----------------------------------------------------------------------------------------
+
+
+def _riccati(
+    v0: Array, tau: Array, a: Array, b: Array, c: Array
+) -> tuple[Array, Array, Array, NDArray[np.bool_]]:
+    """Exact solution of dV/dt = a + b V + c V^2 from V(0) = v0 over ``tau`` seconds.
+
+    With q0 = a(v0), g0 = a'(v0) and k^2 = g0^2/4 - c q0 (a quarter of the discriminant), the Riccati
+    equation with constant coefficients is solved by V = v0 + q0 S / D, D = cosh(k t) - g0 S / 2,
+    S = sinh(k t) / k (for k^2 < 0, cos and sin of |k| t), and then dV/dt = q0 / D^2 (substitute; e.g.
+    Polyanin & Zaitsev, *Handbook of Exact Solutions for Ordinary Differential Equations*, 2nd ed. 2003,
+    1.2.1; from memory). Written with e^(-2 k t) so that nothing overflows for k t large.
+
+    Returns V(tau), dV/dt at tau, the approached equilibrium (real k with the solution bounded: the
+    root v0 + q0 / (k - g0/2); NaN otherwise) and whether V runs to infinity before tau (D reaches 0).
+    """
+    q0 = a + v0 * (b + v0 * c)
+    g0 = b + 2.0 * c * v0
+    k2 = 0.25 * g0 * g0 - c * q0
+    z = k2 * tau * tau
+    small = np.abs(z) <= 0.25
+    y = np.empty_like(v0)
+    rate = np.empty_like(v0)
+    blow = np.empty(v0.shape, dtype=bool)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore", under="ignore"):
+        j = slice(None) if small.all() else np.flatnonzero(small)
+        if not isinstance(j, slice) and j.size == 0:
+            pass
+        else:
+            # cosh(k t) = sum z^n/(2n)!, sinh(k t)/k = t sum z^n/(2n+1)!, z = k^2 t^2 (cos, sin if < 0):
+            # 9 terms leave less than 0.25^9/18! ~ 6e-22.
+            zj = z[j]
+            cc = np.full_like(zj, 1.0 / _FACT[18])
+            ss = np.full_like(zj, 1.0 / _FACT[19])
+            for n in range(8, -1, -1):
+                cc = cc * zj + 1.0 / _FACT[2 * n]
+                ss = ss * zj + 1.0 / _FACT[2 * n + 1]
+            ss = ss * tau[j]
+            d = cc - 0.5 * g0[j] * ss
+            y[j] = q0[j] * ss / d
+            rate[j] = q0[j] / (d * d)
+            blow[j] = d <= 0
+        if not small.all():
+            j = np.flatnonzero(~small)
+            kk = np.sqrt(np.abs(k2[j]))
+            x = kk * tau[j]
+            real = k2[j] >= 0
+            tj, gj, qj = tau[j], g0[j], q0[j]
+            # Real k: 2 e^(-kt) D = (1 + e) - g0 tau phi, 2 e^(-kt) S = 2 tau phi, e = e^(-2kt),
+            # phi = (1 - e)/(2 k t).
+            e = np.exp(-2.0 * x)
+            phi = -np.expm1(-2.0 * x) / (2.0 * x)
+            den_r = (1.0 + e) - gj * tj * phi
+            # Imaginary k: D = cos(kt) - g0/2 sin(kt)/k, valid while D > 0 (before its first zero).
+            sn = np.sin(x) / kk
+            d_i = np.cos(x) - 0.5 * gj * sn
+            y[j] = np.where(real, qj * 2.0 * tj * phi / den_r, qj * sn / d_i)
+            rate[j] = np.where(real, qj * 4.0 * e / (den_r * den_r), qj / (d_i * d_i))
+            blow[j] = np.where(real, den_r <= 0, (d_i <= 0) | (x >= np.pi))
+        kk = np.sqrt(np.abs(k2))
+        root = np.where((k2 >= 0) & (kk - 0.5 * g0 > 0), v0 + q0 / (kk - 0.5 * g0), np.nan)
+    y = np.where(q0 == 0, 0.0, y)
+    rate = np.where(q0 == 0, 0.0, rate)
+    return v0 + y, rate, root, blow & (q0 != 0)
+
+
+_FACT = [float(math.factorial(n)) for n in range(20)]
+
+
+def _trajectory_distance(
+    v0: Array, v1: Array, q0: Array, q1: Array, root: Array, tau: Array, w: Array, a: Array, b: Array,
+    c: Array,
+) -> Array:
+    """int (V - w) dt along a solution of dV/dt = q(V) = a + b V + c V^2 from v0 (rate q0) to v1 (q1).
+
+    As dt = dV/q, this is the braking integral of :func:`_integrals` over [min, max] of v0, v1. Where the
+    motion has settled on an equilibrium r (|q1| <= 1e-3 |q0|), that integral has a logarithmic
+    singularity next to its end; there x = (r - w) tau + int (V - r)/(-q) dV, and (V - r)/q =
+    1/(q'(r) + c (V - r)) integrates to a logarithm without singularity.
+    """
+    sgn = np.where(q0 < 0, 1.0, -1.0)  # sgn q < 0 along the way
+    lo, hi = np.minimum(v0, v1), np.maximum(v0, v1)
+    q_lo = np.where(v0 < v1, q0, q1) * sgn
+    q_hi = np.where(v0 < v1, q1, q0) * sgn
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        d, _ = _integrals(lo, hi, sgn * a, sgn * b, sgn * c, w, q_lo, q_hi, np.minimum(q_lo, q_hi),
+                          np.maximum(q_lo, q_hi))
+        settled = np.isfinite(root) & (np.abs(q1) <= 1e-3 * np.abs(q0))
+        g_r = b + 2.0 * c * root
+        den = g_r + c * (v1 - root)
+        z = c * (v0 - v1) / den
+        ratio = np.where(z != 0, np.log1p(z) / z, 1.0)
+        d_settled = (root - w) * tau - (v0 - v1) / den * ratio
+    d = np.where(settled, d_settled, d)
+    return np.where(q0 == 0, (v0 - w) * tau, d)
+
+
+def _free_roll(
+    v0: Array, tau: Array, w: Array, f: _Forces, mu: Array, method: str = "closed"
+) -> tuple[Array, Array]:
+    """Airspeed and distance after ``tau`` seconds of brakes-off roll from airspeed ``v0``.
+
+    Where the motion stays in the regime of the force law at ``v0`` (sign of the airspeed, wheels loaded
+    or not), the exact Riccati solution (:func:`_riccati`) and the closed-form distance; elsewhere
+    (crossing zero airspeed or the lift-off speed) :func:`_free_roll_pieces`. A speed that runs to
+    infinity is returned as inf (distance inf). An airspeed at or below ``w`` means the aircraft
+    stopped; its distance is then recomputed by the caller.
+    """
+    if method == "quadrature":
+        return _free_roll_rk4(v0, tau, w, f, mu)
+    a, b, c = _coefficients(v0, f, mu, f.idle)
+    v1, q1, root, blow = _riccati(v0, tau, a, b, c)
+    sign0 = v0 >= 0
+    loaded0 = f.g_cos - f.lift * v0 * np.abs(v0) > 0
+    with np.errstate(invalid="ignore"):
+        same = ((v1 >= 0) == sign0) & ((f.g_cos - f.lift * v1 * np.abs(v1) > 0) == loaded0) & ~blow
+    same &= np.isfinite(v1)
+    q0 = a + v0 * (b + v0 * c)
+    x = _trajectory_distance(v0, v1, q0, q1, root, tau, w, a, b, c)
+    if not same.all():
+        i = np.flatnonzero(~same)
+        v1[i], x[i] = _free_roll_pieces(v0[i], tau[i], w[i], _take_forces(f, i), mu[i])
+    return v1, x
+
+
+def _free_roll_pieces(v0: Array, tau: Array, w: Array, f: _Forces, mu: Array) -> tuple[Array, Array]:
+    """Free roll across regimes: regime by regime, the time to the next break point in closed form,
+    then the Riccati solution for the time left. A scalar autonomous equation with a continuous
+    right-hand side has monotone solutions, so each break point is crossed at most once."""
+    n = v0.size
+    q_start = _accel(v0, f, mu, f.idle)
+    v_out = np.where(q_start == 0, v0, np.nan)
+    x_out = np.where(q_start == 0, (v0 - w) * tau, 0.0)
+    left = tau.copy()
+    no_switch = np.full(n, -np.inf)
+    # Slowing down: walk the pieces of [w, v0] from the top; the motion ends in the piece whose
+    # traverse time exceeds the time left, or at the stop (airspeed w) if every piece is traversed.
+    dec = np.flatnonzero(q_start < 0)
+    if dec.size:
+        fd, mud = _take_forces(f, dec), mu[dec]
+        open_ = np.ones(dec.size, dtype=bool)
+        for p in reversed(_pieces(w[dec], v0[dec], fd, mud, fd.idle, no_switch[dec])):
+            rows = np.arange(dec.size)[p.rows]
+            d, t = _piece_integrals(p, w[dec][rows], "closed")
+            t = np.where(p.a_max < 0, t, np.inf)
+            act = open_[rows] & p.used
+            through = act & (t < left[dec][rows])
+            gi = dec[rows[through]]
+            left[gi] -= t[through]
+            x_out[gi] += d[through]
+            end = act & ~through
+            if end.any():
+                k = np.flatnonzero(end)
+                gi = dec[rows[k]]
+                top = p.hi[k]
+                vk, qk, rk, _ = _riccati(top, left[gi], p.a[k], p.b[k], p.c[k])
+                vk = np.clip(vk, p.lo[k], top)
+                q_top = p.a_hi[k]
+                x_out[gi] += _trajectory_distance(top, vk, q_top, qk, rk, left[gi], w[gi], p.a[k],
+                                                  p.b[k], p.c[k])
+                v_out[gi] = vk
+                open_[rows[k]] = False
+        stopped = dec[open_]
+        v_out[stopped] = w[stopped]  # stopped before tau (distance recomputed by the caller)
+    # Speeding up (thrust above the retarding forces): to the lift-off speed, then unloaded.
+    inc = np.flatnonzero(q_start > 0)
+    if inc.size:
+        fi, mui = _take_forces(f, inc), mu[inc]
+        vi, ti, wi = v0[inc], left[inc], w[inc]
+        a, b, c = _coefficients(vi, fi, mui, fi.idle)
+        lift_off = np.maximum(fi.lift_off_speed, vi)
+        cross = np.isfinite(lift_off) & (vi < lift_off)
+        ext = _extremes(vi, np.where(cross, lift_off, vi), -a, -b, -c)
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            d, t = _integrals(vi, np.where(cross, lift_off, vi), -a, -b, -c, wi, *ext)
+        reach = cross & (ext[3] < 0) & (t < ti)  # q > 0 up to the lift-off speed, reached in time
+        x1 = np.where(reach, d, 0.0)
+        t_left = np.where(reach, ti - t, ti)
+        start = np.where(reach, lift_off, vi)
+        # Above the lift-off speed the wheels carry nothing: the unloaded law.
+        a2, b2, c2 = quadratic_acceleration_coefficients(
+            airflow_sign=np.ones_like(vi), wheels_loaded=~reach & (fi.g_cos - fi.lift * vi * vi > 0),
+            thrust_per_mass=fi.idle, drag_per_mass=fi.drag, lift_per_mass=fi.lift, mu=mui,
+            g_cos=fi.g_cos, g_sin=fi.g_sin,
+        )
+        v2, q2, r2, blow = _riccati(start, t_left, a2, b2, c2)
+        q_s = a2 + start * (b2 + start * c2)
+        x2 = _trajectory_distance(start, v2, q_s, q2, r2, t_left, wi, a2, b2, c2)
+        v_out[inc] = np.where(blow, np.inf, v2)
+        x_out[inc] = np.where(blow, np.inf, x1 + x2)
+    return v_out, x_out
+
+
 def _free_roll_rk4(
     v0: Array, duration: Array, headwind: Array, f: _Forces, mu: Array
 ) -> tuple[Array, Array]:
     """Airspeed and distance after ``duration`` seconds of brakes-off roll (classical RK4).
 
-    Each landing takes max(RK4_STEPS, ceil(duration / RK4_MAX_STEP)) equal steps. The force law is
-    taken as the quadratic of the regime at ``v0`` (sign of the airspeed, wheels loaded or not); the
-    landings whose speed leaves that regime are integrated again with the exact piecewise law.
+    The earlier method, kept for comparison (``method="quadrature"``). Each landing takes
+    max(RK4_STEPS, ceil(duration / RK4_MAX_STEP)) equal steps. The force law is taken as the quadratic
+    of the regime at ``v0`` (sign of the airspeed, wheels loaded or not); the landings whose speed
+    leaves that regime are integrated again with the exact piecewise law.
     """
+    a, b, c = _coefficients(v0, f, mu, f.idle)
     sign = np.where(v0 >= 0, 1.0, -1.0)
     loaded = f.g_cos - f.lift * v0 * np.abs(v0) > 0
-    a, b, c = quadratic_acceleration_coefficients(
-        airflow_sign=sign, wheels_loaded=loaded, thrust_per_mass=f.idle, drag_per_mass=f.drag,
-        lift_per_mass=f.lift, mu=mu, g_cos=f.g_cos, g_sin=f.g_sin,
-    )
-    v, x = _rk4(v0, duration, headwind, lambda u: a + u * (b + u * c))
-    left = (np.where(v >= 0, 1.0, -1.0) != sign) | ((f.g_cos - f.lift * v * np.abs(v) > 0) != loaded)
-    if left.any():
-        i = np.flatnonzero(left)
-        fi = _take_forces(f, i)
-        v[i], x[i] = _rk4(v0[i], duration[i], headwind[i], lambda u: _accel(u, fi, mu[i], fi.idle),
-                          max_step=RK4_KINK_STEP)
+    with np.errstate(over="ignore", invalid="ignore"):
+        v, x = _rk4(v0, duration, headwind, lambda u: a + u * (b + u * c))
+        left = (np.where(v >= 0, 1.0, -1.0) != sign) | ((f.g_cos - f.lift * v * np.abs(v) > 0) != loaded)
+        if left.any():
+            i = np.flatnonzero(left)
+            fi = _take_forces(f, i)
+            v[i], x[i] = _rk4(v0[i], duration[i], headwind[i], lambda u: _accel(u, fi, mu[i], fi.idle),
+                              max_step=RK4_KINK_STEP)
     return v, x
 
 
@@ -347,7 +697,7 @@ def _rk4(
 
 
 def _take_forces(f: _Forces, idx: NDArray[np.intp]) -> _Forces:
-    out = {}
+    out: dict[str, Any] = {}
     for fld in fields(f):
         val = getattr(f, fld.name)
         out[fld.name] = tuple(x[idx] for x in val) if isinstance(val, tuple) else val[idx]
@@ -382,7 +732,9 @@ def _newton(
     return x
 
 
-def _speed_at_braking_distance(target: Array, v_top: Array, w: Array, f: _Forces, mu: Array) -> Array:
+def _speed_at_braking_distance(
+    target: Array, v_top: Array, w: Array, f: _Forces, mu: Array, method: str = "closed"
+) -> Array:
     """Airspeed V in [w, v_top] from which the braking distance to the stop equals ``target``.
 
     Walks up the pieces of the braking roll from the stop; in the piece that holds the point, Newton
@@ -391,82 +743,110 @@ def _speed_at_braking_distance(target: Array, v_top: Array, w: Array, f: _Forces
     remaining = target.copy()
     speed = v_top.copy()  # if round-off leaves the point above the last piece: the brake speed
     open_ = np.ones(target.shape, dtype=bool)
-    for p in _pieces(w, v_top, f, mu, f.braking_thrust, f.switch):
-        p = _Piece(np.arange(w.size)[p.rows], p.used, p.lo, p.hi, p.a, p.b, p.c, p.a_min, p.a_max)
-        ww = w[p.rows]
-        with np.errstate(divide="ignore", invalid="ignore"):
-            d, _ = _quadrature(p.lo, p.hi, p.a, p.b, p.c, ww, p.a_min, p.a_max)
+    for piece in _pieces(w, v_top, f, mu, f.braking_thrust, f.switch):
+        rows: NDArray[np.intp] = np.arange(w.size)[piece.rows]
+        p = _Piece(rows, piece.used, piece.lo, piece.hi, piece.a, piece.b, piece.c, piece.a_lo, piece.a_hi,
+                   piece.a_min, piece.a_max)
+        ww = w[rows]
+        d, _ = _piece_integrals(p, ww, method)
         d = np.where(p.used, d, 0.0)
-        here = open_[p.rows] & p.used & (d >= remaining[p.rows])
-        passing = open_[p.rows] & ~here
-        remaining[p.rows[passing]] -= d[passing]
+        here = open_[rows] & p.used & (d >= remaining[rows])
+        passing = open_[rows] & ~here
+        remaining[rows[passing]] -= d[passing]
         if here.any():
             k = np.flatnonzero(here)
             lo, hi, a, b, c, wk = p.lo[k], p.hi[k], p.a[k], p.b[k], p.c[k], ww[k]
-            rem = remaining[p.rows[k]]
+            rem = remaining[rows[k]]
 
             def residual(v: Array, j: NDArray[np.intp], lo=lo, a=a, b=b, c=c, wk=wk, rem=rem):
-                a_min, a_max = _extremes(lo[j], v, a[j], b[j], c[j])
-                with np.errstate(divide="ignore", invalid="ignore"):
-                    part, _ = _quadrature(lo[j], v, a[j], b[j], c[j], wk[j], a_min, a_max)
-                return part - rem[j], (v - wk[j]) / -(a[j] + v * (b[j] + v * c[j]))
+                part = _Piece(slice(None), np.ones(j.size, dtype=bool), lo[j], v, a[j], b[j], c[j],
+                              *_extremes(lo[j], v, a[j], b[j], c[j]))
+                dist, _ = _piece_integrals(part, wk[j], method)
+                return dist - rem[j], (v - wk[j]) / -(a[j] + v * (b[j] + v * c[j]))
 
             decel = np.maximum(-(a + lo * (b + lo * c)), 1e-9)
             v0 = np.clip(wk + np.sqrt((lo - wk) ** 2 + 2.0 * decel * rem), lo, hi)
-            speed[p.rows[k]] = _newton(residual, v0, lo, hi, rem)
-            open_[p.rows[k]] = False
+            speed[rows[k]] = _newton(residual, v0, lo, hi, rem)
+            open_[rows[k]] = False
     return speed
 
 
 def _speed_at_free_roll_distance(
-    target: Array, t_end: Array, v0: Array, w: Array, f: _Forces, mu: Array
+    target: Array, t_end: Array, v0: Array, w: Array, f: _Forces, mu: Array, method: str = "closed"
 ) -> Array:
-    """Airspeed where the free roll has covered ``target`` metres (Newton on the time, RK4 inside)."""
+    """Airspeed where the free roll has covered ``target`` metres (Newton on the time)."""
 
     def residual(t: Array, i: NDArray[np.intp]) -> tuple[Array, Array]:
-        v, x = _free_roll_rk4(v0[i], t, w[i], _take_forces(f, i), mu[i])
+        v, x = _free_roll(v0[i], t, w[i], _take_forces(f, i), mu[i], method)
         return x - target[i], v - w[i]
 
     t0 = np.clip(target / (v0 - w), 0.0, t_end)
     t = _newton(residual, t0, np.zeros_like(t0), t_end, target)
-    return _free_roll_rk4(v0, t, w, f, mu)[0]
+    return _free_roll(v0, t, w, f, mu, method)[0]
 
 
-def _solve_chunk(c: LandingCase) -> dict[str, NDArray]:
+
+def _solve_chunk(c: LandingCase, method: str) -> dict[str, NDArray]:
     w = c.headwind
     vs = stall_speed(c.mass, c.density, c.wing_area, c.cl_max, c.g)
     v_td = c.touchdown_speed_ratio * vs
     if np.any(v_td - w <= 0):
         n = int(np.count_nonzero(v_td - w <= 0))
         raise ValueError(f"headwind at or above the touchdown speed in {n} landing(s)")
-    approach, flare = air_distance_flare(
-        c.screen_height, c.approach_angle, c.approach_speed_ratio * vs, c.flare_speed_ratio * vs,
-        c.flare_load_factor, w, c.g,
-    )
     given = c.touchdown_given
+    # The flare model needs h / tan(gamma) to be a number: an angle so shallow that it is not (or that
+    # is zero once in radians) is refused with its value rather than carried as inf or NaN.
+    with np.errstate(divide="ignore", over="ignore"):
+        reach = c.screen_height / np.tan(c.approach_angle)
+    shallow = ~given & ~(reach < np.inf)
+    if shallow.any():
+        angle = float(np.degrees(np.broadcast_to(c.approach_angle, shallow.shape)[shallow][0]))
+        raise ValueError(
+            f"procedure.approach_angle = {angle:.3g} deg in {int(np.count_nonzero(shallow))} landing(s): the "
+            "approach path is too shallow for the air distance to be a number (a few tenths of a degree "
+            "or more is usual)"
+        )
+    approach, flare = air_distance_flare(
+        c.screen_height, np.where(given, 0.05, c.approach_angle), c.approach_speed_ratio * vs,
+        c.flare_speed_ratio * vs, c.flare_load_factor, w, c.g,
+    )
     approach = np.where(given, 0.0, approach)
     flare = np.where(given, 0.0, flare)
+    backwards = (approach < 0) | (flare < 0)
+    if backwards.any():
+        raise ValueError(f"headwind at or above the approach or flare airspeed in "
+                         f"{int(np.count_nonzero(backwards))} landing(s): the flare model needs a positive "
+                         "ground speed (lower the headwind or give procedure.touchdown_distance)")
     air = np.where(given, c.touchdown_distance, approach + flare)
+    if not np.all(np.isfinite(air)):
+        raise ValueError("procedure.approach_angle: the air distance overflows in "
+                         f"{int(np.count_nonzero(~np.isfinite(air)))} landing(s) (approach path too shallow)")
 
     f = _forces(c)
     lifted = f.lift * v_td * v_td > f.g_cos
     no_switch = np.full_like(w, -np.inf)
 
-    # Free roll: time integration; where the ground speed reaches zero first, the stop by quadrature.
-    v_b, x_free = _free_roll_rk4(v_td, c.reaction_time, w, f, c.rolling_mu)
+    # Free roll: time integration; where the ground speed reaches zero first, the stop in closed form.
+    v_b, x_free = _free_roll(v_td, c.reaction_time, w, f, c.rolling_mu, method)
     t_free = c.reaction_time.copy()
     stopped = v_b <= w
-    cannot = np.zeros_like(stopped)
+    # Thrust above every retarding force and growing faster than drag: the speed runs to infinity.
+    runaway = ~(v_b < np.inf) & ~stopped
+    cannot = runaway.copy()
     if stopped.any():
         i = np.flatnonzero(stopped)
         fi = _take_forces(f, i)
-        d, t, ok = _roll_integrals(w[i], v_td[i], w[i], fi, c.rolling_mu[i], fi.idle, no_switch[i])
+        d, t, ok = _roll_integrals(w[i], v_td[i], w[i], fi, c.rolling_mu[i], fi.idle, no_switch[i], method)
         x_free[i], t_free[i], cannot[i], v_b[i] = d, t, ~ok, w[i]
+    if runaway.any():
+        v_b = np.where(runaway, np.inf, v_b)
+        x_free = np.where(runaway, np.inf, x_free)
 
     # Braking roll from the brake-application airspeed down to zero ground speed.
-    brake, t_brake, ok = _roll_integrals(w, v_b, w, f, c.braking_mu, f.braking_thrust, f.switch)
-    brake = np.where(stopped, 0.0, brake)
-    t_brake = np.where(stopped, 0.0, t_brake)
+    brake, t_brake, ok = _roll_integrals(w, np.where(runaway, w, v_b), w, f, c.braking_mu,
+                                         f.braking_thrust, f.switch, method)
+    brake = np.where(stopped, 0.0, np.where(runaway, np.inf, brake))
+    t_brake = np.where(stopped, 0.0, np.where(runaway, np.inf, t_brake))
     cannot |= ~ok & ~stopped
 
     total = air + x_free + brake
@@ -487,7 +867,7 @@ def _solve_chunk(c: LandingCase) -> dict[str, NDArray]:
     }
 
 
-def _overrun_speeds(c: LandingCase, r: dict[str, NDArray]) -> Array:
+def _overrun_speeds(c: LandingCase, r: dict[str, NDArray], method: str) -> Array:
     """Ground speed at the runway end of overrunning landings ``c`` with their chunk results ``r``."""
     f = _forces(c)
     w = c.headwind
@@ -499,12 +879,14 @@ def _overrun_speeds(c: LandingCase, r: dict[str, NDArray]) -> Array:
     in_free = ~in_braking & (excess <= brake + x_free)
     if in_braking.any():
         i = np.flatnonzero(in_braking)
-        v = _speed_at_braking_distance(excess[i], v_b[i], w[i], _take_forces(f, i), c.braking_mu[i])
+        v = _speed_at_braking_distance(excess[i], v_b[i], w[i], _take_forces(f, i), c.braking_mu[i],
+                                       method)
         out[i] = v - w[i]
     if in_free.any():
         i = np.flatnonzero(in_free)
         v = _speed_at_free_roll_distance(
-            c.lda[i] - air[i], r["_free_roll_time"][i], v_td[i], w[i], _take_forces(f, i), c.rolling_mu[i]
+            c.lda[i] - air[i], r["_free_roll_time"][i], v_td[i], w[i], _take_forces(f, i), c.rolling_mu[i],
+            method,
         )
         out[i] = v - w[i]
     # Touchdown beyond the runway end: the aircraft passes it in the air at about its touchdown speed.
@@ -513,32 +895,39 @@ def _overrun_speeds(c: LandingCase, r: dict[str, NDArray]) -> Array:
     return out
 
 
-def solve_landings(case: LandingCase) -> LandingResult:
+def solve_landings(case: LandingCase, method: str = "closed") -> LandingResult:
     """Evaluate every landing of ``case`` (vectorised; memory grows linearly with N).
 
     Parameters
     ----------
     case : LandingCase
         Inputs of N landings (see :func:`landrisk.model.case.case_from_values`).
+    method : str
+        ``"closed"`` (closed-form braking integrals and Riccati free roll, the default) or
+        ``"quadrature"`` (the earlier Gauss-Legendre and fixed-step Runge-Kutta solver, for comparison).
 
     Returns
     -------
     LandingResult
         Every phase distance and speed per landing, with the flags ``lift_exceeds_weight``,
-        ``cannot_stop`` and ``stopped_in_free_roll`` for the caller to count.
+        ``cannot_stop`` (also set where the speed runs away in the free roll: free roll, braking and
+        time infinite) and ``stopped_in_free_roll`` for the caller to count.
 
     Raises
     ------
     ValueError
-        If a headwind is at or above the touchdown speed, or a physics input is outside its range.
+        If a headwind is at or above the touchdown speed, the air distance is beyond floating-point range,
+        or a physics input is outside its range.
     """
+    if method not in METHODS:
+        raise ValueError(f"unknown method {method!r}; choose one of {', '.join(METHODS)}")
     full = case.broadcast()
     n = full.size
     if n == 0:
         raise ValueError("no landings to solve")
     out: dict[str, NDArray] = {}
     for start in range(0, n, CHUNK):
-        part = _solve_chunk(full.take(slice(start, start + CHUNK)))
+        part = _solve_chunk(full.take(slice(start, start + CHUNK)), method)
         if not out:
             out = {k: np.empty(n, dtype=v.dtype) for k, v in part.items()}
         for k, v in part.items():
@@ -546,7 +935,8 @@ def solve_landings(case: LandingCase) -> LandingResult:
     overruns = np.flatnonzero(out["overrun"] & ~out["cannot_stop"])
     for start in range(0, overruns.size, CHUNK):
         i = overruns[start : start + CHUNK]
-        out["runway_end_ground_speed"][i] = _overrun_speeds(full.take(i), {k: v[i] for k, v in out.items()})
+        out["runway_end_ground_speed"][i] = _overrun_speeds(
+            full.take(i), {k: v[i] for k, v in out.items()}, method)
     del out["_free_roll_time"]
     return LandingResult(**out)
 
@@ -557,9 +947,13 @@ def solve_one(case: LandingCase) -> LandingResult:
     Raises
     ------
     SolveError
-        If lift exceeds weight at touchdown, or the aircraft cannot stop under the given forces.
+        If lift exceeds weight at touchdown, the aircraft cannot stop under the given forces, or the
+        inputs cannot be evaluated (headwind at the touchdown speed, air distance beyond range).
     """
-    res = solve_landings(case)
+    try:
+        res = solve_landings(case)
+    except ValueError as exc:
+        raise SolveError(str(exc)) from None
     if res.size != 1:
         raise ValueError("solve_one takes a single landing")
     if res.lift_exceeds_weight[0]:

@@ -110,7 +110,8 @@ def air_distance_flare(
     s_app_air = np.where(high_flare, 0.0, (h - hf) / np.tan(gam))
     t_app = s_app_air / (np.cos(gam) * va)
     # Arc: swept angle gamma, or less if the arc starts above the screen height.
-    s_arc_air = np.where(high_flare, np.sqrt(np.maximum(r * r - (r - h) ** 2, 0.0)), r * np.sin(gam))
+    # R^2 - (R - h)^2 written as h (2 R - h): no cancellation when R is much larger than h (n -> 1).
+    s_arc_air = np.where(high_flare, np.sqrt(np.maximum(h * (2.0 * r - h), 0.0)), r * np.sin(gam))
     swept = np.where(high_flare, np.arcsin(np.minimum(s_arc_air / r, 1.0)), gam)
     t_arc = r * swept / vf
     return s_app_air - w * t_app, s_arc_air - w * t_arc

@@ -22,7 +22,7 @@ from landrisk.physics import (
     thrust,
 )
 
-__all__ = ["reference_ground_roll"]
+__all__ = ["reference_braking_quad", "reference_free_roll", "reference_ground_roll"]
 
 
 def reference_ground_roll(
@@ -113,3 +113,88 @@ def reference_ground_roll(
         raise RuntimeError("reference integration did not reach a stop")
     return done({"free_roll_m": x_free, "braking_m": sol.y[0, -1], "time_to_stop_s": sol.t[-1],
                  "touchdown_speed": v_td})
+
+
+def _landing_params(case: LandingCase, index: int) -> dict[str, float]:
+    c = case.broadcast().take(slice(index, index + 1))
+    p = {f: float(np.asarray(getattr(c, f))[0]) for f in c.__dataclass_fields__ if f != "g"}
+    p["g"] = c.g
+    p["k"] = float(induced_drag_factor(aspect_ratio(p["wing_span"], p["wing_area"]), p["oswald"]))
+    p["phi"] = float(ground_effect_factor(p["wing_height"], p["wing_span"]))
+    p["v_td"] = p["touchdown_speed_ratio"] * float(
+        stall_speed(p["mass"], p["density"], p["wing_area"], p["cl_max"], p["g"])
+    )
+    return p
+
+
+def _force_per_mass(p: dict[str, float], v: float, mu: float, coeffs: tuple[float, float, float]) -> float:
+    m, rho, s, g, theta = p["mass"], p["density"], p["wing_area"], p["g"], p["slope_angle"]
+    lift = float(lift_force(v, rho, s, p["cl_ground"]))
+    drag = float(drag_force(v, rho, s, p["cd0"], p["k"], p["phi"], p["cl_ground"]))
+    normal = max(m * g * np.cos(theta) - lift, 0.0)
+    return (float(thrust(v, *coeffs)) - drag - mu * normal - m * g * np.sin(theta)) / m
+
+
+def reference_braking_quad(
+    case: LandingCase, v_brake: float, index: int = 0, epsrel: float = 1e-13
+) -> dict[str, float]:
+    """Braking distance and time from airspeed ``v_brake`` to the stop by ``scipy.integrate.quad``.
+
+    S = int_w^v_b (V - w)/(-a(V)) dV and t = int_w^v_b dV/(-a(V)), with the acceleration a built from the
+    physics force functions point by point (reverse thrust above the cut-off where used, idle below), and
+    the points where the force law has a kink (zero airspeed, the cut-off, the lift-off speed) given to
+    QUADPACK as break points. Shares no integration code with the solver.
+
+    Returns
+    -------
+    dict
+        ``braking_m`` and ``braking_s``.
+    """
+    from scipy.integrate import quad
+
+    p = _landing_params(case, index)
+    w = p["headwind"]
+    idle = (p["idle_t0"], p["idle_t1"], p["idle_t2"])
+    rev = (p["reverse_t0"], p["reverse_t1"], p["reverse_t2"])
+    cut = p["reverse_cutoff_speed"]
+
+    def accel(v: float) -> float:
+        coeffs = rev if p["use_reverse"] and v > cut else idle
+        return _force_per_mass(p, v, p["braking_mu"], coeffs)
+
+    q_lift = 0.5 * p["density"] * p["wing_area"] * p["cl_ground"]
+    lift_off = np.sqrt(p["mass"] * p["g"] * np.cos(p["slope_angle"]) / q_lift) if q_lift > 0 else np.inf
+    points = sorted({x for x in (0.0, cut, lift_off) if w < x < v_brake})
+    opts = {"epsabs": 0.0, "epsrel": epsrel, "limit": 500, "points": points or None}
+    dist = quad(lambda v: (v - w) / -accel(v), w, v_brake, **opts)[0]
+    time = quad(lambda v: 1.0 / -accel(v), w, v_brake, **opts)[0]
+    return {"braking_m": dist, "braking_s": time}
+
+
+def reference_free_roll(
+    case: LandingCase, index: int = 0, rtol: float = 1e-12, method: str = "DOP853"
+) -> dict[str, float]:
+    """The free roll alone by ``scipy.integrate.solve_ivp``: airspeed and distance after the reaction
+    time, brakes off, idle thrust, rolling friction; stops at zero ground speed.
+
+    Returns
+    -------
+    dict
+        ``free_roll_m``, ``brake_speed`` (airspeed at the end) and ``stopped`` (1.0 or 0.0).
+    """
+    p = _landing_params(case, index)
+    w = p["headwind"]
+    idle = (p["idle_t0"], p["idle_t1"], p["idle_t2"])
+
+    def f(_t: float, y: np.ndarray) -> list[float]:
+        return [y[1] - w, _force_per_mass(p, y[1], p["rolling_mu"], idle)]
+
+    def stop(_t: float, y: np.ndarray) -> float:
+        return y[1] - w
+
+    stop.terminal = True  # type: ignore[attr-defined]
+    sol = solve_ivp(f, (0.0, p["reaction_time"]), [0.0, p["v_td"]], events=[stop], method=method,
+                    rtol=rtol, atol=1e-12)
+    stopped = bool(sol.t_events[0].size)
+    return {"free_roll_m": float(sol.y[0, -1]), "brake_speed": float(sol.y[1, -1]),
+            "stopped": float(stopped)}
