@@ -137,6 +137,15 @@ class Marginal:
             return self._normal_ppf(u)
         if self.family == "lognormal":  # exp of a (truncated) normal: the fast normal path
             return np.exp(self._normal_ppf(u))
+        if self.family in ("uniform", "triangular"):  # closed forms, much cheaper than chaospy's inverse
+            a, b = float(self.params["lower"]), float(self.params["upper"])
+            if self.family == "uniform":
+                return a + u * (b - a)
+            m = float(self.params["mode"])
+            c = (m - a) / (b - a)
+            with np.errstate(invalid="ignore"):
+                return np.where(u < c, a + np.sqrt(u * (b - a) * (m - a)),
+                                b - np.sqrt((1 - u) * (b - a) * (b - m)))
         if self.truncated:
             fa, fb = self._base_cdf(self.lower), self._base_cdf(self.upper)
             return np.clip(self.base.inv(fa + u * (fb - fa)), self.lower, self.upper)

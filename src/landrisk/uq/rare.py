@@ -33,7 +33,7 @@ so that the cost per call of the model (not the number of points) sets the wall 
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Generator, Hashable
+from collections.abc import Callable, Generator, Hashable, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -95,7 +95,7 @@ class _Counter:
         return ev
 
 
-def run_tasks(tasks: list[tuple[Hashable, Task]], evaluate: Evaluator) -> list[Any]:
+def run_tasks(tasks: Sequence[tuple[Hashable, Task]], evaluate: Evaluator) -> list[Any]:
     """Drive the tasks side by side: each step, all their pending points go to ``evaluate`` at once.
 
     ``tasks`` are (key, generator) pairs; the key tells the evaluator which limit state the points belong
