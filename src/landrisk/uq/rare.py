@@ -9,7 +9,7 @@
 - **SORM** (Breitung 1984, J. Eng. Mech. 110:357): P ~ Phi(-beta) prod_i (1 + beta kappa_i)^(-1/2), the
   kappa_i the principal curvatures of the limit state at the design point, the eigenvalues of
   Q^T H Q / |grad g| (H the Hessian of g by central differences, in one vectorised call; Q an orthonormal
-  basis of the plane normal to alpha).
+  basis of the plane normal to alpha). Two step sizes must agree, else no SORM value (a kinked limit state).
 - **Importance sampling** around the design points: a mixture of unit normals centred on them, weighted by
   Phi(-beta_k); P = mean(1{g <= 0} phi(u) / q(u)), drawn in batches until the coefficient of variation
   reaches the target or the call budget is spent; the Kish effective sample size (sum w)^2 / sum w^2.
@@ -251,27 +251,46 @@ def form(
     return _distinct(points), gc.calls
 
 
+def _curvatures(y: Array, dp: DesignPoint, h: float) -> tuple[Array, Array]:
+    """Hessian by central differences from the 4 d^2 values y, and the principal curvatures."""
+    d = dp.u.size
+    y = y.reshape(4, d, d)
+    hess = (y[0] - y[1] - y[2] + y[3]) / (4 * h * h)
+    hess = 0.5 * (hess + hess.T)
+    q, _ = np.linalg.qr(np.column_stack([dp.alpha, np.eye(d)]))  # q[:, 1:d]: the plane normal to alpha
+    basis = q[:, 1:d]
+    if d == 1 or not np.all(np.isfinite(hess)):
+        return hess, np.empty(0) if d == 1 else np.full(d - 1, np.nan)
+    return hess, np.linalg.eigvalsh(basis.T @ hess @ basis / dp.grad_norm)
+
+
 def sorm_task(dp: DesignPoint, *, h: float = 0.05) -> Task:
     """Breitung's (1984) SORM probability at a design point; returns (probability, curvatures, message).
 
     The Hessian by central differences, H_ij = [g(u+h e_i+h e_j) - g(u+h e_i-h e_j) - g(u-h e_i+h e_j)
-    + g(u-h e_i-h e_j)] / 4h^2, all 4 d^2 points in one call; the gradient norm from FORM.
+    + g(u-h e_i-h e_j)] / 4h^2, with steps h and 2h, all 8 d^2 points in one call; the gradient norm from
+    FORM. Where the two steps' correction factors prod (1 + beta kappa_i)^(-1/2) differ by more than 5 %
+    the limit state has no well-defined curvature there (a kink, as an empirical input's piecewise-linear
+    quantile function makes) and no SORM value is given (NaN, with the reason).
     """
     u, d = dp.u, dp.u.size
-    e = h * np.eye(d)
-    pts = np.concatenate([u + e[i] * si + e[j] * sj for si, sj in ((1, 1), (1, -1), (-1, 1), (-1, -1))
-                          for i in range(d) for j in range(d)]).reshape(-1, d)
-    y = (yield pts).reshape(4, d, d)
-    hess = (y[0] - y[1] - y[2] + y[3]) / (4 * h * h)
-    hess = 0.5 * (hess + hess.T)
-    # an orthonormal basis of the plane normal to alpha
-    q, _ = np.linalg.qr(np.column_stack([dp.alpha, np.eye(d)]))
-    basis = q[:, 1:d]
-    kappa = np.linalg.eigvalsh(basis.T @ hess @ basis / dp.grad_norm) if d > 1 else np.empty(0)
-    factor = 1.0 + dp.beta * kappa
-    if not np.all(np.isfinite(hess)) or np.any(factor <= 0):
-        return math.nan, kappa, "Breitung's formula does not apply (1 + beta kappa <= 0 or no curvature)"
-    return float(dp.probability * np.prod(factor ** -0.5)), kappa, ""
+    pts = []
+    for step in (h, 2 * h):
+        e = step * np.eye(d)
+        pts += [u + e[i] * si + e[j] * sj for si, sj in ((1, 1), (1, -1), (-1, 1), (-1, -1))
+                for i in range(d) for j in range(d)]
+    y = yield np.array(pts)
+    half = y.size // 2
+    _, kappa = _curvatures(y[:half], dp, h)
+    _, kappa2 = _curvatures(y[half:], dp, 2 * h)
+    factor, factor2 = 1.0 + dp.beta * kappa, 1.0 + dp.beta * kappa2
+    if not (np.all(np.isfinite(factor)) and np.all(factor > 0) and np.all(factor2 > 0)):
+        return math.nan, kappa, "Breitung's formula does not apply (1 + beta kappa <= 0, or no curvature)"
+    c1, c2 = float(np.prod(factor ** -0.5)), float(np.prod(factor2 ** -0.5))
+    if abs(math.log(c1 / c2)) > 0.05:
+        return math.nan, kappa, ("the limit state has no well-defined curvature at the design point "
+                                 f"(SORM factor {c1:.3f} with step {h:g}, {c2:.3f} with {2 * h:g}: a kink)")
+    return float(dp.probability * c1), kappa, ""
 
 
 def sorm(g: LimitState, dp: DesignPoint, *, h: float = 0.05) -> tuple[float, Array, int]:
