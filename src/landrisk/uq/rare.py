@@ -47,6 +47,7 @@ __all__ = [
     "DesignPoint",
     "RareEstimate",
     "WorstCorner",
+    "auto",
     "exceedance_by_subsets",
     "form",
     "form_task",
@@ -610,3 +611,46 @@ def worst_corner(g: LimitState, lower_bounded: NDArray[np.bool_], upper_bounded:
 def intervals_disagree(a: RareEstimate, b: RareEstimate) -> bool:
     """True when the two estimates' confidence intervals do not overlap (FORM: its point value)."""
     return a.ci[1] < b.ci[0] or b.ci[1] < a.ci[0]
+
+
+def auto(
+    g: LimitState, d: int, *, seed: Seed = None, target_cov: float = 0.1, n: int = 1000, replicates: int = 4,
+    max_calls: int = 100_000, starts: int = 6, conf: float = 0.95,
+) -> tuple[RareEstimate, RareEstimate | None]:
+    """The default for a rare P(g <= 0): subset simulation as the estimate (it needs no design point, so
+    does not miss failure regions), replicates added until the CoV meets ``target_cov`` or ``max_calls``
+    is spent; FORM's design points from ``starts`` starts and importance sampling around them beside it,
+    run at the same time. Returns (estimate, importance-sampling cross-check); where the two intervals do
+    not overlap, the estimate's message says so (WARNING: a missed failure region).
+    """
+    rng = normalize_seed(seed)
+    gc = _Counter(g)
+    tasks: list[tuple[Hashable, Task]] = [(0, subset_task(d, rng, n=n)) for _ in range(replicates)]
+    tasks += [(0, form_task(np.zeros(d)))]
+    tasks += [(0, form_task(3.0 * v / np.linalg.norm(v), tol=1e-3, max_iter=40))
+              for v in rng.normal(size=(starts - 1, d))]
+    done = run_tasks(tasks, gc.evaluator())
+    runs, points = done[:replicates], _distinct(done[replicates:])
+    est = pool_replicates(runs, conf)
+    more = 0
+    if est.converged and est.cov > target_cov:
+        per_run = est.calls / replicates
+        more = min(math.ceil(replicates * (est.cov / target_cov) ** 2) - replicates,
+                   int(max(max_calls - est.calls, 0) // max(per_run, 1)))
+    conv = [p for p in points if p.converged] or points[:1]
+    second: list[tuple[Hashable, Task]] = [(0, subset_task(d, rng, n=n)) for _ in range(max(more, 0))]
+    second.append((0, importance_task(conv, rng, target_cov=target_cov, max_calls=max_calls, conf=conf)))
+    done = run_tasks(second, gc.evaluator())
+    runs += done[:-1]
+    check: RareEstimate = done[-1]
+    est = pool_replicates(runs, conf)
+    msg = est.message
+    if est.converged and check.converged and intervals_disagree(est, check):
+        msg = (f"WARNING: importance sampling around the design points gives {check.probability:.3e}, "
+               f"outside the subset interval [{est.ci[0]:.2e}, {est.ci[1]:.2e}]: a failure region missed "
+               "by the design-point search (the subset estimate stands)")
+    elif est.converged and est.cov > 1.05 * target_cov:
+        msg = f"CoV {est.cov:.2f} above the target {target_cov:g} after {gc.calls:,} calls"
+    out = RareEstimate("auto", est.probability, est.cov, est.ci, gc.calls, est.converged, msg, points,
+                       None, est.kind, est.replicates, est.failure_u)
+    return out, check
