@@ -57,8 +57,8 @@ def four_branch(k: float, c: float) -> Callable:
 
 
 def _paraboloid(beta: float, kappa: float, d: int) -> float:
-    return integrate.quad(lambda s: stats.norm.sf(beta + kappa * s / 2) * stats.chi2.pdf(s, d - 1), 0, np.inf,
-                          epsabs=0, epsrel=1e-10, limit=200)[0]
+    return integrate.quad(lambda s: stats.norm.sf(beta + kappa * s / 2) * stats.chi2.pdf(s, d - 1),
+                          0, np.inf, epsabs=0, epsrel=1e-10, limit=200)[0]
 
 
 def _exp(u):  # standard exponential variables from standard normals, accurate in the upper tail
@@ -71,7 +71,8 @@ CHOL = np.linalg.cholesky(CORR)
 
 PROBLEMS = [
     Problem("linear, 2 variables", 2, lambda u: 3.0 * SQ2 - u.sum(axis=1), lambda: stats.norm.sf(3.0),
-            "Hasofer & Lind 1974 (J. Eng. Mech. Div. 100:111): a hyperplane at distance beta, P = Phi(-beta)"),
+            "Hasofer & Lind 1974 (J. Eng. Mech. Div. 100:111): a hyperplane at distance beta, "
+            "P = Phi(-beta)"),
     Problem("linear, 100 variables", 100, lambda u: 4.0 * 10.0 - u.sum(axis=1), lambda: stats.norm.sf(4.0),
             "Hasofer & Lind 1974; high dimension as in Rozsas & Slobbe 2019 (black-box reliability "
             "challenge), P = Phi(-4)"),
