@@ -547,9 +547,11 @@ class _CurveLevels:
 
 def _add_curve(batch: _Batch, n_branches: int, d: int, s: RareSettings,
                rng: np.random.Generator) -> list[int]:
-    """The levels of P(total > LDA) down to 1e-9: ``subset_replicates`` subset simulations per branch."""
+    """The levels of P(total > LDA) down to 1e-9: ``subset_replicates`` subset simulations per branch, of
+    half the estimate's samples per level (the curve is a picture with an interval, not the estimate)."""
     reps = max(s.subset_replicates, 2)
-    return [batch.add(("total", k, 0.0), exceedance_task(d, rng, p_min=1e-9, n=s.subset_samples))
+    n = max(200, s.subset_samples // 2)
+    return [batch.add(("total", k, 0.0), exceedance_task(d, rng, p_min=1e-9, n=n))
             for k in range(n_branches) for _ in range(reps)]
 
 
@@ -598,7 +600,7 @@ def _finish_curve(scenario: Scenario, problem: Problem, part: _CurveLevels, form
     nb = len(branches)
     points = [(length, sum(b.probability * form_found[j * nb + k].probability
                            for k, b in enumerate(branches))) for j, length in enumerate(_curve_targets(part))]
-    n_mc = 100_000
+    n_mc = 20_000  # the curve's top, where 10 events need P >= 5e-4
     a = assess(scenario, problem, AssessSettings(samples=n_mc, seed=int(rng.integers(2**31))))
     xs = a.sorted_total()
     p_mc = (n_mc - np.searchsorted(xs, part.lda[keep], side="right")) / n_mc
