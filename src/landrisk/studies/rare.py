@@ -481,7 +481,8 @@ def _at_bound(cont: Problem, x: Array) -> NDArray[np.bool_]:
     for j, m in enumerate(cont.marginals):
         if m.family == "empirical":
             data = np.sort(np.asarray(m.params["data"], dtype=float))
-            out[:, j] = (x[:, j] >= data[-2]) | (x[:, j] <= data[1])
+            top = (x[:, j] >= data[-2]) if "pareto_threshold" not in m.params else np.zeros(len(x), bool)
+            out[:, j] = top | (x[:, j] <= data[1])  # a fitted Pareto tail replaces the largest value
             continue
         if not (math.isfinite(m.lower) or math.isfinite(m.upper)):
             continue
