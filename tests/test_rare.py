@@ -15,7 +15,7 @@ from landrisk.studies import RareSettings, rare_assess
 from landrisk.uq.rare import form, importance_sampling, intervals_disagree, subset_simulation
 
 # Linear limit state g = beta sqrt(n) - sum u_i in standard normal space: P_f = Phi(-beta) exactly for any
-# n (Hasofer-Lind / Cornell reliability index; REFERENCES.md). beta = 5.2 -> 9.96e-8.
+# n (Hasofer & Lind 1974, J. Eng. Mech. Div. 100:111). beta = 5.2 -> 9.96e-8.
 BETA = 5.2
 EXACT = stats.norm.cdf(-BETA)
 
@@ -66,7 +66,8 @@ def test_interval_coverage_over_many_seeds() -> None:
 
 
 def four_branch(u):
-    # Waarts 2000 (PhD thesis, TU Delft): reference P_f ~ 2.2228e-3, four design points (REFERENCES.md).
+    # Waarts 2000 (PhD thesis, TU Delft): reference P_f ~ 2.2228e-3, four design points;
+    # tests/test_rare_problems.py recomputes it by Monte Carlo (2.20e-3).
     x1, x2 = u[:, 0], u[:, 1]
     return np.minimum.reduce([3 + 0.1 * (x1 - x2) ** 2 - (x1 + x2) / np.sqrt(2),
                               3 + 0.1 * (x1 - x2) ** 2 + (x1 + x2) / np.sqrt(2),
