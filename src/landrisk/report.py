@@ -284,8 +284,9 @@ def render_rare(r: RareAssessment, written: list[str] | None = None) -> str:
         lines.append(f"  P(overrun) ~ {name} = {r.probability:.3e}{beta} ({r.method.upper()} has no "
                      "sampling interval; FORM is exact for a linear limit state only)")
     elif r.probability == 0:
-        lines.append(f"  P(overrun) = 0, at most {r.ci[1]:.1e}: no branch can overrun inside the inputs' "
-                     "bounds")
+        bound = f", at most {r.ci[1]:.1e} (outside the box of the bounds)" if r.ci[1] > 0 else ""
+        lines.append(f"  P(overrun) = 0{bound}: no branch can overrun inside the inputs' bounds (see the "
+                     "notes)")
     else:
         lines.append(f"  P(overrun) = {r.probability:.3e} [{r.ci[0]:.2e}, {r.ci[1]:.2e}] ({conf}), "
                      f"coefficient of variation {100 * r.cov:.1f} %{beta}")
