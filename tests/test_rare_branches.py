@@ -177,3 +177,15 @@ def test_pareto_tail_lifts_the_bound_from_the_scenario() -> None:
                                          ['runway.lda="2420 m"'])
     r = rare_assess(scenario, uncertain.problem(), RareSettings(risk_curve=False, cross_check=False))
     assert r.converged and r.probability > 0 and "procedure.touchdown_distance" not in r.bound_limited
+
+
+def test_a_runway_no_branch_can_overrun_gives_zero_not_no_estimate(study) -> None:
+    scenario, uncertain, _ = study
+    r = rare_assess(scenario.with_values(**{"runway.lda": 3000.0}), uncertain.problem(),
+                    RareSettings(risk_curve=False))
+    assert r.converged and r.probability == 0 and r.ci == (0.0, 0.0)
+    assert all(b.estimate.kind == "zero" for b in r.branches)
+    assert r.calls == 2**4 * len(r.branches)  # only the 2^4 corners (4 continuous inputs) were solved
+    text = render_rare(r)
+    assert "NO ESTIMATE" not in text and "P(overrun) = 0: no branch can overrun" in text
+    assert rare_record(r)["p_overrun"] == 0
