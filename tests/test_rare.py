@@ -16,7 +16,7 @@ from landrisk.studies import RareSettings, rare_assess
 from landrisk.uq.rare import form, importance_sampling, intervals_disagree, subset_simulation
 
 # Linear limit state g = beta sqrt(n) - sum u_i in standard normal space: P_f = Phi(-beta) exactly for any
-# n (Hasofer-Lind / Cornell reliability index; REFERENCES.md). beta = 5.2 -> 9.96e-8.
+# n (Hasofer & Lind 1974, J. Eng. Mech. Div. 100:111). beta = 5.2 -> 9.96e-8.
 BETA = 5.2
 EXACT = stats.norm.cdf(-BETA)
 
@@ -67,7 +67,8 @@ def test_interval_coverage_over_many_seeds() -> None:
 
 
 def four_branch(u):
-    # Waarts 2000 (PhD thesis, TU Delft): reference P_f ~ 2.2228e-3, four design points (REFERENCES.md).
+    # Waarts 2000 (PhD thesis, TU Delft): reference P_f ~ 2.2228e-3, four design points;
+    # tests/test_rare_problems.py recomputes it by Monte Carlo (2.20e-3).
     x1, x2 = u[:, 0], u[:, 1]
     return np.minimum.reduce([3 + 0.1 * (x1 - x2) ** 2 - (x1 + x2) / np.sqrt(2),
                               3 + 0.1 * (x1 - x2) ** 2 + (x1 + x2) / np.sqrt(2),
@@ -153,3 +154,83 @@ def test_cli_assess_rare_json_and_files(tmp_path) -> None:
 
 def _refuse(name: str) -> None:
     raise ValueError(f"not valid JSON: {name}")
+
+
+# ---------------------------------------------------------------------------------------------------
+# SORM, the subset interval, stalled levels, the worst corner
+
+
+@pytest.mark.parametrize("beta, kappa, d", [(3.5, 0.1, 4), (4.5, -0.05, 4)])
+def test_sorm_on_a_paraboloid_against_exact_integration(beta, kappa, d) -> None:
+    # g = beta - u_d + kappa/2 sum_{i<d} u_i^2: a paraboloid with principal curvatures kappa at the design
+    # point beta e_d. Exact: P = int_0^inf Phi(-(beta + kappa s / 2)) f_chi2(s; d-1) ds (scipy.integrate.quad,
+    # scipy.stats.chi2). Breitung 1984 (J. Eng. Mech. 110:357): P ~ Phi(-beta) (1 + beta kappa)^(-(d-1)/2).
+    from scipy import integrate
+
+    from landrisk.uq.rare import sorm
+
+    def g(u):
+        return beta - u[:, -1] + kappa / 2 * (u[:, :-1] ** 2).sum(axis=1)
+
+    exact = integrate.quad(lambda s: stats.norm.sf(beta + kappa * s / 2) * stats.chi2.pdf(s, d - 1),
+                           0, np.inf,
+                           epsabs=0, epsrel=1e-10, limit=200)[0]
+    dps, _ = form(g, d)
+    p, curv, calls = sorm(g, dps[0])
+    np.testing.assert_allclose(curv, kappa, rtol=1e-3)
+    assert p == pytest.approx(stats.norm.sf(beta) * (1 + beta * kappa) ** (-(d - 1) / 2), rel=1e-3)
+    assert p == pytest.approx(exact, rel=0.05)
+    assert abs(dps[0].probability / exact - 1) > 0.1  # FORM alone is off here: the test can tell them apart
+    assert calls == 8 * d * d
+
+
+def test_subset_interval_is_the_student_t_interval_over_the_replicates() -> None:
+    # mean +- t_{0.975, R-1} s / sqrt(R) (Student 1908; scipy.stats.t), where the replicates' scatter s
+    # exceeds the Au-Beck value; else the Au-Beck standard error sqrt(sum (cov_r p_r)^2) / R.
+    from landrisk.uq.rare import RareEstimate, pool_replicates
+
+    p = np.array([1.0e-6, 2.0e-6, 1.5e-6, 1.2e-6])
+    runs = [RareEstimate("subset", float(v), 0.01, (0, 1), 100, True) for v in p]
+    est = pool_replicates(runs)
+    t = stats.t.ppf(0.975, 3)
+    half = t * p.std(ddof=1) / 2
+    assert est.ci == pytest.approx((p.mean() - half, p.mean() + half), rel=1e-12)
+    assert est.ci[1] - est.ci[0] > 1.6 * 2 * 1.96 * p.std(ddof=1) / 2  # 62 % wider than a normal interval
+    same = pool_replicates([RareEstimate("subset", 1e-6, 0.3, (0, 1), 100, True) for _ in range(4)])
+    assert same.ci == pytest.approx((1e-6 * (1 - t * 0.15), 1e-6 * (1 + t * 0.15)), rel=1e-12)
+    # and subset_simulation reports exactly this pooling of its replicates
+    real = subset_simulation(linear(2), 2, n=500, seed=9)
+    s_rep = np.std(real.replicates, ddof=1) / 2
+    assert real.ci[1] - real.ci[0] >= 2 * t * s_rep * (1 - 1e-12)
+
+
+def test_levels_that_stall_above_zero_give_an_upper_bound_only() -> None:
+    # g >= 1 everywhere: no failure; the levels stall at g = 1 after the first.
+    est = subset_simulation(lambda u: np.maximum(1.0, 2.0 - u[:, 0]), 2, n=500, seed=1)
+    assert est.kind == "upper bound" and est.probability == 0 and not est.converged
+    assert 0 < est.ci[1] <= 1 and "upper bound" in est.message
+
+
+def test_worst_corner() -> None:
+    from landrisk.uq.rare import worst_corner
+
+    # g = 2.5 - Phi(u1) - Phi(u2): its minimum over the box is 0.5 at the corner (+, +); bounded inputs.
+    wc, calls = worst_corner(lambda u: 2.5 - stats.norm.cdf(u).sum(axis=1), np.array([True, True]),
+                             np.array([True, True]))
+    assert wc.g == pytest.approx(0.5) and np.all(wc.u > 0) and wc.outside == 0 and calls == 4
+    # an unbounded upper side: the box stops at 8 there, and P(outside) <= Phi(-8) (the union bound)
+    wc, _ = worst_corner(lambda u: 10.0 - u[:, 0], np.array([True]), np.array([False]))
+    assert wc.g == pytest.approx(2.0) and wc.outside == pytest.approx(stats.norm.sf(8.0))
+
+
+def test_tasks_side_by_side_give_the_same_answers_as_one_at_a_time() -> None:
+    from landrisk.uq.rare import _Counter, run_tasks, subset_task
+
+    g = _Counter(linear(3))
+    alone = [run_tasks([(0, subset_task(3, np.random.default_rng(s), n=500))], g.evaluator())[0]
+             for s in range(3)]
+    calls_alone = g.calls
+    together = run_tasks([(0, subset_task(3, np.random.default_rng(s), n=500)) for s in range(3)],
+                         g.evaluator())
+    assert [a.probability for a in alone] == [b.probability for b in together]
+    assert g.calls == 2 * calls_alone

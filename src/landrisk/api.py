@@ -264,13 +264,14 @@ def rare(
     scenario: Scenario,
     uncertain: UncertainSet,
     *,
-    method: str = "importance",
+    method: str = "auto",
     seed: int = 1,
     target_cov: float = 0.1,
     risk_curve: bool = True,
     **options: Any,
 ) -> RareAssessment:
-    """P(overrun) by FORM, importance sampling or subset simulation; see studies.rare.
+    """P(overrun) by auto (the default), subset simulation, importance sampling, FORM or SORM; see
+    studies.rare.
 
     ``options`` are further fields of :class:`landrisk.studies.RareSettings` (``max_calls``,
     ``subset_samples``, ...).

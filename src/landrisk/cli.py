@@ -132,9 +132,16 @@ class _ProgressBar:
               help="Seed of the sampler; the same seed gives the same results.")
 @click.option("--sampler", type=click.Choice(["random", "sobol", "halton", "lhs"]), default="random",
               show_default=True, help="Pseudo-random, scrambled Sobol or Halton points, or Latin hypercube.")
-@click.option("--method", type=click.Choice(["mc", "importance", "subset", "form"]), default="mc",
-              show_default=True, help="Monte Carlo, or for rare overruns: importance sampling around the "
-              "design points, subset simulation, or FORM.")
+@click.option("--method", type=click.Choice(["mc", "auto", "subset", "importance", "form", "sorm"]),
+              default="mc", show_default=True, help="Monte Carlo, or for rare overruns: auto (subset "
+              "simulation with FORM's design point and importance sampling beside it; the one to use), "
+              "subset simulation, importance sampling around the design points, FORM or SORM.")
+@click.option("--target-cov", type=click.FloatRange(min=0.001, max=1.0), default=0.1, show_default=True,
+              help="Rare methods: the coefficient of variation aimed at.")
+@click.option("--max-calls", type=click.IntRange(min=1000), default=100_000, show_default=True,
+              help="Rare methods: at most this many solver calls per discrete branch for the estimate.")
+@click.option("--subset-samples", type=click.IntRange(min=100), default=1000, show_default=True,
+              help="Rare methods: subset-simulation samples per level and replicate.")
 @_set_option
 @click.option("--out", "out_dir", type=click.Path(file_okay=False),
               help="Write summary.json, percentiles.csv and the figures (PNG, SVG) to this folder.")
@@ -154,10 +161,10 @@ class _ProgressBar:
               show_default=True, help="With --epistemic: reweight one inner sample, or a nested loop.")
 @_units_option
 @_reported
-def assess(config: str | None, samples: int, seed: int, sampler: str, method: str,
-           overrides: tuple[str, ...], out_dir: str | None, save_samples: bool, force: bool, as_json: bool,
-           quiet: bool, epistemic: bool, outer: int, epistemic_method: str, samples_format: str,
-           units: str | None) -> None:
+def assess(config: str | None, samples: int, seed: int, sampler: str, method: str, target_cov: float,
+           max_calls: int, subset_samples: int, overrides: tuple[str, ...], out_dir: str | None,
+           save_samples: bool, force: bool, as_json: bool, quiet: bool, epistemic: bool, outer: int,
+           epistemic_method: str, samples_format: str, units: str | None) -> None:
     """Probability of an overrun and percentile landing distances, by Monte Carlo.
 
     Samples the scenario's uncertain inputs ([uncertain."<key>"] tables), solves every landing, and
@@ -165,19 +172,33 @@ def assess(config: str | None, samples: int, seed: int, sampler: str, method: st
     probability of an overrun and of stopping beyond the runway-end safety area with binomial
     intervals, and comparison lines with regulatory factors. For overrun probabilities far below 1/N,
     --method importance, subset or form estimates the probability with its coefficient of variation,
-    the most likely overrun and a risk curve against runway length (--samples and --sampler then do
-    not apply).
+    the most likely overrun and a risk curve against runway length (--samples, --sampler and
+    --save-samples then do not apply and are refused; --target-cov, --max-calls and --subset-samples
+    apply to them only).
     """
     from landrisk import api, report
 
     if save_samples and not out_dir:
         raise click.UsageError("--save-samples needs --out DIR")
+    ctx = click.get_current_context()
+    given = [f"--{n.replace('_', '-')}" for n in ("samples", "sampler", "save_samples", "target_cov",
+                                                   "max_calls", "subset_samples")
+             if ctx.get_parameter_source(n) is not click.core.ParameterSource.DEFAULT]
+    mc_only = [g for g in given if g in ("--samples", "--sampler", "--save-samples")]
+    rare_only = [g for g in given if g in ("--target-cov", "--max-calls", "--subset-samples")]
+    if method != "mc" and mc_only:
+        raise click.UsageError(f"{', '.join(mc_only)}: for Monte Carlo only, not --method {method}; "
+                               "the rare methods take --target-cov, --max-calls and --subset-samples")
+    if method == "mc" and rare_only:
+        raise click.UsageError(f"{', '.join(rare_only)}: for the rare methods only (--method auto, subset, "
+                               "importance, form, sorm)")
     scenario, uncertain = api.load_study(config, overrides)
     if epistemic and method != "mc":
         raise click.UsageError("--epistemic works with --method mc (Monte Carlo inner samples)")
     shown = api.display_units(scenario, units)
     if method != "mc":
-        rare = api.rare(scenario, uncertain, method=method, seed=seed)
+        rare = api.rare(scenario, uncertain, method=method, seed=seed, target_cov=target_cov,
+                        max_calls=max_calls, subset_samples=subset_samples)
         rare_written = ([str(p) for p in api.write_rare(rare, out_dir, force=force, units=shown)]
                         if out_dir else None)
         if as_json:

@@ -262,19 +262,30 @@ RANK_FIGURES = {"indices": indices_figure, "tornado": tornado_figure,
 
 
 def risk_curve_figure(r: RareAssessment) -> Figure:
-    """P(overrun) against the landing distance available, one curve per method, on a log axis."""
+    """P(overrun) against the landing distance available, one curve per method, on a log axis; the subset
+    curve with its interval band, drawn only where every replicate reached it; the estimate at the LDA
+    with its interval, or a hollow marker labelled as such where the method did not converge."""
     plt = _pyplot()
     rc = r.risk_curve
     assert rc is not None
     fig, ax = plt.subplots(figsize=(8, 5.2))
-    ax.plot(rc.lda_m, rc.p_subset, label=f"subset simulation ({rc.subset_calls:,} solver calls)")
+    ok = rc.converged & (rc.p_subset > 0)
+    p_ok = np.where(ok, rc.p_subset, np.nan)
+    ax.plot(rc.lda_m, p_ok, label=f"subset simulation ({rc.subset_calls:,} solver calls)")
+    ax.fill_between(rc.lda_m, np.where(ok, np.maximum(rc.ci_lo, 1e-12), np.nan),
+                    np.where(ok, rc.ci_hi, np.nan),
+                    alpha=0.25, label=f"{100 * r.settings.confidence:g} % interval over the replicates")
     ax.plot(rc.lda_m, rc.p_mc, lw=2.5, alpha=0.6, label=f"Monte Carlo ({rc.mc_samples:,} samples)")
     pts = np.array(rc.form_points)
     ax.plot(pts[:, 0], pts[:, 1], "s", label=f"FORM ({rc.form_calls:,} calls)")
     lda = float(r.scenario.values["runway.lda"])
-    ax.errorbar([lda], [r.probability], yerr=[[r.probability - r.ci[0]], [r.ci[1] - r.probability]],
-                fmt="o", color="black", capsize=4,
-                label=f"{r.method} at the LDA {lda:.0f} m: {r.probability:.2e}")
+    if r.converged and r.probability > 0:
+        ax.errorbar([lda], [r.probability], yerr=[[r.probability - r.ci[0]], [r.ci[1] - r.probability]],
+                    fmt="o", color="black", capsize=4,
+                    label=f"{r.method} at the LDA {lda:.0f} m: {r.probability:.2e}")
+    elif r.probability > 0:
+        ax.plot([lda], [r.probability], "o", mfc="none", color="red",
+                label=f"{r.method} at the LDA {lda:.0f} m: NOT CONVERGED, no estimate")
     ax.set_yscale("log")
     ax.set_ylim(1e-10, 1)
     ax.set_xlabel("landing distance available [m]")

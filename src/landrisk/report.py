@@ -8,8 +8,9 @@ in ASCII for a terminal that cannot show every character.
 
 from __future__ import annotations
 
+import math
 import unicodedata
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
@@ -356,8 +357,38 @@ def render_rank(r: Ranking, written: list[str] | None = None) -> str:
     return _closing(lines, r.warnings, written)
 
 
-_METHOD_NAMES = {"form": "FORM (first-order reliability method)", "importance":
-                 "importance sampling around the design points", "subset": "subset simulation"}
+_METHOD_NAMES = {"auto": "auto (subset simulation, with FORM's design point and importance sampling "
+                         "beside it)",
+                 "form": "FORM (first-order reliability method)",
+                 "sorm": "SORM (second-order reliability method, Breitung 1984)",
+                 "importance": "importance sampling around the design points", "subset": "subset simulation"}
+
+
+def _rare_settings_line(r: RareAssessment) -> str:
+    """The run's settings, each marked where it is the default."""
+    from landrisk.studies import RareSettings
+
+    s, d = r.settings, RareSettings()
+
+    def mark(v: object, default: object) -> str:
+        return " (default)" if v == default else ""
+
+    return (f"Settings: --target-cov {s.target_cov:g}{mark(s.target_cov, d.target_cov)}, --max-calls "
+            f"{s.max_calls:,} per branch{mark(s.max_calls, d.max_calls)}, --subset-samples "
+            f"{s.subset_samples:,} per level{mark(s.subset_samples, d.subset_samples)} x "
+            f"{s.subset_replicates} replicates")
+
+
+def _rare_branch_line(b: Any) -> str:
+    label = ", ".join(f"{k} = {v}" for k, v in b.values.items()) or "all landings"
+    e = b.estimate
+    if e.kind == "zero":
+        return f"    {label} (probability {b.probability:g}): 0 - cannot overrun inside the inputs' bounds"
+    if e.kind == "upper bound":
+        return f"    {label} (probability {b.probability:g}): at most {e.ci[1]:.1e} (an upper bound only)"
+    extra = f", CoV {100 * e.cov:.1f} %" if e.cov and np.isfinite(e.cov) else ""
+    ci = f" [{e.ci[0]:.2e}, {e.ci[1]:.2e}]" if e.method not in ("form", "sorm") and e.converged else ""
+    return f"    {label} (probability {b.probability:g}): {e.probability:.3e}{ci}{extra}, {e.calls:,} calls"
 
 
 def render_rare(r: RareAssessment, written: list[str] | None = None) -> str:
@@ -369,30 +400,35 @@ def render_rare(r: RareAssessment, written: list[str] | None = None) -> str:
         f"landrisk {__version__} - rare overrun probability",
         f"Scenario: {s.name} ({s.source})" + (f" with {', '.join(s.overrides)}" if s.overrides else ""),
         f"Method: {_METHOD_NAMES[r.method]}; seed {r.settings.seed}; {r.calls:,} solver calls",
+        _rare_settings_line(r),
         "",
         f"Runway: LDA {lda:.0f} m ({convert(lda, 'm', 'ft'):.0f} ft)",
     ]
+    beta = f", generalised beta {r.beta:.3f}" if r.beta is not None and math.isfinite(r.beta) else ""
     if not r.converged:
-        lines.append(f"  P(overrun): NO ESTIMATE - THE METHOD DID NOT CONVERGE ({'; '.join(r.messages)}). "
-                     f"Its last, unreliable value was {r.probability:.1e}; use --method subset or plain "
+        why = next((m for m in r.messages if "did not converge" in m), "; ".join(r.messages))
+        lines.append(f"  P(overrun): NO ESTIMATE - THE METHOD DID NOT CONVERGE ({why}). "
+                     f"Its last, unreliable value was {r.probability:.1e}; use --method auto or plain "
                      "Monte Carlo.")
-    elif r.method == "form":
-        lines.append(f"  P(overrun) ~ Phi(-beta) = {r.probability:.3e}, beta = {r.beta:.3f} (FORM has no "
-                     "sampling interval; it is exact for a linear limit state only)")
+    elif r.method in ("form", "sorm"):
+        name = "Phi(-beta)" if r.method == "form" else "Breitung's SORM"
+        lines.append(f"  P(overrun) ~ {name} = {r.probability:.3e}{beta} ({r.method.upper()} has no "
+                     "sampling interval; FORM is exact for a linear limit state only)")
+    elif r.probability == 0:
+        bound = f", at most {r.ci[1]:.1e} (outside the box of the bounds)" if r.ci[1] > 0 else ""
+        lines.append(f"  P(overrun) = 0{bound}: no branch can overrun inside the inputs' bounds (see the "
+                     "notes)")
     else:
         lines.append(f"  P(overrun) = {r.probability:.3e} [{r.ci[0]:.2e}, {r.ci[1]:.2e}] ({conf}), "
-                     f"coefficient of variation {100 * r.cov:.1f} %, "
-                     f"generalised beta {r.beta or float('nan'):.3f}")
-    for b in r.branches:
-        label = ", ".join(f"{k} = {v}" for k, v in b.values.items()) or "all landings"
-        cov = b.estimate.cov
-        extra = f", CoV {100 * cov:.1f} %" if cov and np.isfinite(cov) else ""
-        lines.append(f"    {label} (probability {b.probability:g}): {b.estimate.probability:.3e}{extra}, "
-                     f"{b.estimate.calls:,} calls")
+                     f"coefficient of variation {100 * r.cov:.1f} %{beta}")
+    if r.bound_limited:
+        lines.append(f"  SET BY A BOUND: the overruns sit at the bound of {', '.join(r.bound_limited)}; "
+                     "the probability is set by that assumption")
+    lines += [_rare_branch_line(b) for b in r.branches]
     if r.cross_check is not None:
         c = r.cross_check
-        lines.append(f"  cross-check by subset simulation: {c.probability:.3e} [{c.ci[0]:.2e}, "
-                     f"{c.ci[1]:.2e}] ({c.calls:,} calls)")
+        lines.append(f"  cross-check by {_METHOD_NAMES.get(c.method, c.method)}: {c.probability:.3e} "
+                     f"[{c.ci[0]:.2e}, {c.ci[1]:.2e}] ({c.calls:,} calls)")
     if r.design_point:
         lines += ["", "The most likely overrun (design point of the dominant branch) and each input's "
                   "importance alpha^2:"]
@@ -404,10 +440,15 @@ def render_rare(r: RareAssessment, written: list[str] | None = None) -> str:
             lines.append(f"  {k:<34}{shown:>16}   (nominal {nominal}){tail}")
     if r.risk_curve is not None:
         rc = r.risk_curve
-        lines += ["", "Risk curve (subset simulation, mixed over branches): P(overrun) for a runway of"]
+        lines += ["", f"Risk curve (subset simulation, mixed over branches, {conf} interval over its "
+                  "replicates): P(overrun) for a runway of"]
         for target in (1e-3, 1e-5, 1e-7, 1e-9):
             i = int(np.argmin(np.abs(np.log(np.maximum(rc.p_subset, 1e-300)) - np.log(target))))
-            lines.append(f"  {rc.lda_m[i]:8.0f} m: {rc.p_subset[i]:.1e}")
+            if rc.converged[i]:
+                lines.append(f"  {rc.lda_m[i]:8.0f} m: {rc.p_subset[i]:.1e} [{rc.ci_lo[i]:.1e}, "
+                             f"{rc.ci_hi[i]:.1e}]")
+            else:
+                lines.append(f"  {rc.lda_m[i]:8.0f} m: not reached by every replicate (no estimate)")
     return _closing(lines, r.messages, written)
 
 

@@ -260,34 +260,49 @@ def ranking_record(r: Ranking) -> dict[str, Any]:
             "inputs_used": dict(r.scenario.values), "scenario_text": r.scenario.text}
 
 
+def _finite(v: float | None) -> float | None:
+    """A float for JSON: None for NaN or an infinity (JSON has neither)."""
+    return None if v is None or not math.isfinite(v) else float(v)
+
+
 def _rare_figures(r: RareAssessment) -> dict[str, Any]:
     """The JSON-ready figures of a rare-event assessment (no provenance)."""
+    s = r.settings
     out: dict[str, Any] = {
         "method": r.method,
         # A method that did not converge gives no estimate; its last value is kept apart.
         "p_overrun": r.probability if r.converged else None,
         "p_overrun_ci95": list(r.ci) if r.converged else None,
         "last_value_not_converged": None if r.converged else r.probability,
-        "cov": r.cov,
+        "cov": _finite(r.cov),
         "model_calls": r.calls,
         "converged": r.converged,
-        "beta": r.beta,
+        "beta": _finite(r.beta),
         "lda_m": float(r.scenario.values["runway.lda"]),
-        "seed": r.settings.seed,
+        "seed": s.seed,
+        "settings": {"target_cov": s.target_cov, "max_calls_per_branch": s.max_calls,
+                     "subset_samples_per_level": s.subset_samples, "subset_replicates": s.subset_replicates,
+                     "starts": s.starts, "confidence": s.confidence},
+        # inputs whose truncation bound or extreme sample value sets the probability
+        "bound_limited": list(r.bound_limited),
         "design_point": r.design_point,
         "importance_alpha2": r.importance,
-        "branches": [{"values": b.values, "probability": b.probability, "p_overrun": b.estimate.probability,
-                      "cov": b.estimate.cov, "ci95": list(b.estimate.ci), "calls": b.estimate.calls,
+        "branches": [{"values": b.values, "probability": b.probability, "kind": b.estimate.kind,
+                      "p_overrun": b.estimate.probability, "cov": _finite(b.estimate.cov),
+                      "ci95": list(b.estimate.ci), "calls": b.estimate.calls,
                       "converged": b.estimate.converged, "message": b.estimate.message,
                       "effective_samples": b.estimate.effective_samples} for b in r.branches],
         "messages": r.messages,
     }
     if r.cross_check is not None:
         c = r.cross_check
-        out["cross_check_subset"] = {"p_overrun": c.probability, "ci95": list(c.ci), "calls": c.calls}
+        out["cross_check"] = {"method": c.method, "p_overrun": c.probability, "ci95": list(c.ci),
+                              "calls": c.calls}
     if r.risk_curve is not None:
         rc = r.risk_curve
         out["risk_curve"] = {"lda_m": rc.lda_m.tolist(), "p_subset": rc.p_subset.tolist(),
+                             "p_subset_ci95_lo": rc.ci_lo.tolist(), "p_subset_ci95_hi": rc.ci_hi.tolist(),
+                             "converged": rc.converged.tolist(),
                              "subset_calls": rc.subset_calls, "mc_samples": rc.mc_samples,
                              "p_mc": [None if np.isnan(v) else float(v) for v in rc.p_mc],
                              "form_points": [{"lda_m": a, "p_form": b} for a, b in rc.form_points],

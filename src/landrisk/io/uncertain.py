@@ -42,7 +42,7 @@ __all__ = ["UncertainInput", "UncertainSet", "parse_uncertain"]
 
 _LOCATION = ("mean", "median", "mode", "lower", "upper", "scale", "shift")
 _SPREAD = ("sd",)
-_PURE = ("sigma_log", "alpha", "beta", "shape")
+_PURE = ("sigma_log", "alpha", "beta", "shape", "pareto_tail_above")
 _META = ("distribution", "source", "file", "column", "unit")
 
 

@@ -56,7 +56,7 @@ FAMILIES: dict[str, tuple[tuple[str, ...], tuple[str, ...]]] = {
     "beta": (("alpha", "beta", "lower", "upper"), ()),
     "weibull": (("shape", "scale"), ("shift", "lower", "upper")),
     "discrete": (("values", "probabilities"), ()),
-    "empirical": (("data",), ()),
+    "empirical": (("data",), ("pareto_tail_above",)),
 }
 
 
@@ -142,12 +142,32 @@ class Marginal:
             idx = np.searchsorted(self._cum, u, side="right")
             return self._values[np.minimum(idx, self._values.size - 1)]
         if self.family == "empirical":
-            # Linear interpolation between order statistics (Hyndman & Fan 1996, definition 7).
-            return np.quantile(self._values, u, method="linear")
+            # Linear interpolation between order statistics (Hyndman & Fan 1996, definition 7); above
+            # the threshold quantile q, if asked for, the fitted generalised Pareto tail (Coles 2001, ch. 4).
+            x = np.quantile(self._values, u, method="linear")
+            if "pareto_threshold" not in self.params:
+                return x
+            from scipy import stats
+
+            q = float(self.params["pareto_tail_above"])
+            tail = np.clip((u - q) / (1 - q), 0.0, 1.0)
+            with np.errstate(invalid="ignore"):
+                gp = self.params["pareto_threshold"] + stats.genpareto.ppf(
+                    tail, self.params["pareto_shape"], scale=self.params["pareto_scale"])
+            return np.where(u > q, gp, x)
         if self.family in ("normal", "truncnormal"):
             return self._normal_ppf(u)
         if self.family == "lognormal":  # exp of a (truncated) normal: the fast normal path
             return np.exp(self._normal_ppf(u))
+        if self.family in ("uniform", "triangular"):  # closed forms, much cheaper than chaospy's inverse
+            a, b = float(self.params["lower"]), float(self.params["upper"])
+            if self.family == "uniform":
+                return a + u * (b - a)
+            m = float(self.params["mode"])
+            c = (m - a) / (b - a)
+            with np.errstate(invalid="ignore"):
+                return np.where(u < c, a + np.sqrt(u * (b - a) * (m - a)),
+                                b - np.sqrt((1 - u) * (b - a) * (b - m)))
         if self.truncated:
             fa, fb = self._base_cdf(self.lower), self._base_cdf(self.upper)
             return np.clip(self.base.inv(fa + u * (fb - fa)), self.lower, self.upper)
@@ -212,6 +232,8 @@ class Marginal:
         shown = {k: v for k, v in self.params.items() if k not in ("data",)}
         if self.family == "empirical":
             shown = {"n": len(self.params["data"])}
+            if "pareto_threshold" in self.params:
+                shown |= {k: self.params[k] for k in ("pareto_threshold", "pareto_shape", "pareto_scale")}
         text = f"{self.family}(" + ", ".join(f"{k}={_fmt(v)}" for k, v in shown.items()) + ")"
         if self.truncated:
             text += f" on [{_fmt(self.lower)}, {_fmt(self.upper)}]"
@@ -324,7 +346,24 @@ def _empirical(p: dict[str, Any]) -> Marginal:
     data = np.sort(np.asarray(p["data"], dtype=float))
     if data.ndim != 1 or data.size < 2 or not np.all(np.isfinite(data)):
         raise ValueError("empirical data must hold at least two finite numbers")
-    return Marginal("empirical", p, float(data[0]), float(data[-1]), data)
+    if "pareto_tail_above" not in p:
+        return Marginal("empirical", p, float(data[0]), float(data[-1]), data)
+    q = float(p["pareto_tail_above"])
+    over = data[data > np.quantile(data, q)] if 0 < q < 1 else data[:0]
+    if not 0.5 <= q < 1 or over.size < 10:
+        raise ValueError(f"pareto_tail_above ({q:g}) must lie in [0.5, 1) and leave at least 10 values above "
+                         f"it (it leaves {over.size})")
+    from scipy import stats
+
+    # Peaks over threshold (Coles 2001, An Introduction to Statistical Modeling of Extreme Values, ch. 4):
+    # the excesses over the sample quantile u are generalised Pareto, fitted by maximum likelihood.
+    u = float(np.quantile(data, q))
+    xi, _, sigma = stats.genpareto.fit(over - u, floc=0.0)
+    upper = u - sigma / xi if xi < 0 else math.inf
+    fitted = {**p, "pareto_threshold": u, "pareto_shape": float(xi), "pareto_scale": float(sigma),
+              "pareto_source": "generalised Pareto tail above the sample quantile, peaks over threshold by "
+                               "maximum likelihood (Coles 2001, ch. 4; scipy.stats.genpareto)"}
+    return Marginal("empirical", fitted, float(data[0]), float(upper), data)
 
 
 def normal_correlation_from_spearman(spearman: ArrayLike) -> Array:
