@@ -14,7 +14,8 @@ from landrisk.studies import PHASES, Assessment, Ranking, RareAssessment
 if TYPE_CHECKING:
     import pandas as pd
 
-__all__ = ["landings_table", "percentile_table", "rank_table", "risk_curve_table", "samples_table"]
+__all__ = ["landings_table", "overrun_profile_table", "percentile_table", "rank_table", "risk_curve_table",
+           "samples_table"]
 
 
 def landings_table(values: Mapping[str, ArrayLike], result: LandingResult) -> pd.DataFrame:
@@ -64,7 +65,26 @@ def rank_table(r: Ranking) -> pd.DataFrame:
                           "total_ci95_lo": i.total_ci[0] if i.total_ci else None,
                           "total_ci95_hi": i.total_ci[1] if i.total_ci else None,
                           "low_value": i.p5, "high_value": i.p95, "swing_total_m": i.swing_total_m,
-                          "swing_margin_m": i.swing_margin_m, "discrete": i.discrete} for i in r.inputs])
+                          "swing_margin_m": i.swing_margin_m, "discrete": i.discrete,
+                          "levels": "; ".join(i.levels)} for i in r.inputs])
+
+
+def overrun_profile_table(r: Ranking) -> pd.DataFrame:
+    """One row per input: its median before and given an overrun (SI units of the key), the shift, and
+    the input's first-order index of the overrun indicator."""
+    import pandas as pd
+
+    cols = ["name", "unit", "prior_median", "overrun_median", "shift", "overrun_first_order",
+            "overrun_first_order_ci95_lo", "overrun_first_order_ci95_hi", "note"]
+    o = r.overrun
+    if o is None:
+        return pd.DataFrame(columns=cols)
+    return pd.DataFrame([{"name": p.name, "unit": p.unit, "prior_median": p.prior_median,
+                          "overrun_median": p.overrun_median, "shift": p.shift,
+                          "overrun_first_order": i.first_order,
+                          "overrun_first_order_ci95_lo": i.ci[0] if i.ci else None,
+                          "overrun_first_order_ci95_hi": i.ci[1] if i.ci else None, "note": i.note}
+                         for p, i in zip(o.profile, o.indices, strict=True)], columns=cols)
 
 
 def risk_curve_table(r: RareAssessment) -> pd.DataFrame:

@@ -14,7 +14,13 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from landrisk.export.records import assessment_record, ranking_record, rare_record
-from landrisk.export.tables import percentile_table, rank_table, risk_curve_table, samples_table
+from landrisk.export.tables import (
+    overrun_profile_table,
+    percentile_table,
+    rank_table,
+    risk_curve_table,
+    samples_table,
+)
 from landrisk.io.output import comment_header, write_files
 from landrisk.studies import Assessment, Ranking, RareAssessment
 
@@ -101,7 +107,8 @@ def write_ranking(r: Ranking, folder: str | Path, *, force: bool = False) -> lis
     from landrisk.plotting import RANK_FIGURES
 
     figs = {k: f for k, f in RANK_FIGURES.items() if r.method == "pce" or k != "surrogate-exceedance"}
-    return write_result_set(folder, "ranking.json", ranking_record(r), {"indices.csv": rank_table(r)}, figs,
+    tables = {"indices.csv": rank_table(r), "overrun-profile.csv": overrun_profile_table(r)}
+    return write_result_set(folder, "ranking.json", ranking_record(r), tables, figs,
                             r, inputs=r.scenario.values, force=force)
 
 

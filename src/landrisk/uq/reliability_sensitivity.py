@@ -311,7 +311,8 @@ def parameter_sensitivity(
     The stated change is ``location_change`` times the input's spread (half its 16-84 % range) for a
     location (mean, median, mode), ``relative_change`` times the value for the others; the score
     d ln f / dtheta by a central difference of the joint log density (copula included). A discrete
-    input's probabilities: P(level k) raised by 0.01 (capped), the others scaled to keep the sum,
+    input's probabilities (of two levels, the rarer only): P(level k) raised by 0.01 (capped), the
+    others scaled to keep the sum,
     with the exact score 1{x = v_k} / p_k - 1{x != v_k} / (1 - p_k).
     """
     z = stats.norm.ppf(0.5 + conf / 2)
@@ -327,9 +328,10 @@ def parameter_sensitivity(
     for j, (name, m) in enumerate(zip(problem.names, problem.marginals, strict=True)):
         if m.discrete:
             values, probs = m.choices()
+            rarest = float(np.min(probs[probs > 0]))
             for v, p in zip(values, probs, strict=True):
-                if not 0 < p < 1:
-                    continue
+                if not 0 < p < 1 or (np.sum(probs > 0) == 2 and p != rarest):
+                    continue  # of two levels, the rarer one's probability (the other is its complement)
                 hit = np.isclose(x[:, j], v)
                 add(name, f"P({_fmt(v)})", float(p), float(min(0.01, 1 - p)),
                     np.where(hit, 1 / p, -1 / (1 - p)))
