@@ -266,10 +266,11 @@ def overrun_profile_figure(r: Ranking) -> Figure:
                 lo = min(lo, float(np.min(o.overrun_x[:, k])) * factor)
                 hi = max(hi, float(np.max(o.overrun_x[:, k])) * factor)
             bins = np.linspace(lo, hi, 40)
-            ax.hist(prior, bins=bins, density=True, alpha=0.5, label="all landings")
+            ax.hist(prior, bins=bins, density=True, alpha=0.5, histtype="stepfilled", label="all landings")
             ax.axvline(row.prior_median * factor, color="tab:blue", ls="--", lw=1)
             if enough and row.overrun_median is not None:
                 ax.hist(o.overrun_x[:, k] * factor, bins=bins, weights=o.overrun_w, density=True, alpha=0.6,
+                        histtype="stepfilled",
                         color="tab:red", label="overruns")
                 ax.axvline(row.overrun_median * factor, color="tab:red", ls="--", lw=1)
             ax.set_yticks([])

@@ -226,7 +226,11 @@ def marginal_logpdf(m: Marginal, x: Array) -> Array:
 
 
 def marginal_cdf(m: Marginal, x: Array) -> Array:
-    """F(x) of a continuous marginal (truncation included)."""
+    """F(x) of a continuous marginal (truncation included); of an empirical one, the inverse of its
+    linear interpolation between order statistics (Hyndman & Fan 1996, definition 7)."""
+    if m.family == "empirical":
+        data = np.sort(np.asarray(m.params["data"], dtype=float))
+        return np.interp(x, data, np.linspace(0.0, 1.0, data.size))
     dist = _scipy(m)
     if dist is None:
         raise ValueError(f"no distribution function for a {m.family} input")
@@ -236,16 +240,18 @@ def marginal_cdf(m: Marginal, x: Array) -> Array:
     return (dist.cdf(x) - fa) / (fb - fa)
 
 
-def joint_logpdf(problem: Problem, x: Array) -> Array:
+def joint_logpdf(problem: Problem, x: Array, only: int | None = None) -> Array:
     """log of the joint density of ``problem`` at x[n, d]: the marginals and the Gaussian copula,
     log c = -z^T (R^-1 - I) z / 2 - ln det R / 2 with z the normal scores of the correlated inputs and
     R their normal-space correlation (Nelsen 2006, An Introduction to Copulas, eq. for the Gaussian copula;
-    from memory)."""
+    from memory). With ``only = j``, input j's marginal term and the copula term alone (the other
+    marginals' terms do not depend on input j's parameters)."""
     out = np.zeros(x.shape[0])
     for j, m in enumerate(problem.marginals):
-        out += marginal_logpdf(m, x[:, j])
+        if only is None or j == only:
+            out += marginal_logpdf(m, x[:, j])
     c = problem.correlated
-    if c.size and problem.spearman is not None:
+    if c.size and problem.spearman is not None and (only is None or only in c):
         from landrisk.uq.distributions import normal_correlation_from_spearman
 
         r = normal_correlation_from_spearman(np.asarray(problem.spearman)[np.ix_(c, c)])
@@ -303,7 +309,7 @@ def parameter_sensitivity(
     location_change: float = 0.1,
     relative_change: float = 0.1,
     conf: float = 0.95,
-    score: Callable[[Problem, Array], Array] = joint_logpdf,
+    score: Callable[..., Array] = joint_logpdf,
 ) -> list[ParameterSensitivity]:
     """dP_f / dtheta for every parameter that leaves the support in place, by the score function on the
     failure samples x (weights: likelihood ratios; n: samples behind P_f).
@@ -342,8 +348,8 @@ def parameter_sensitivity(
             value = float(m.params[par])
             change = location_change * _spread(m) if par in _LOCATION else relative_change * abs(value)
             h = 1e-4 * (change / max(location_change, relative_change))
-            s = (score(_perturbed(problem, j, par, value + h), x)
-                 - score(_perturbed(problem, j, par, value - h), x)) / (2 * h)
+            s = (score(_perturbed(problem, j, par, value + h), x, only=j)
+                 - score(_perturbed(problem, j, par, value - h), x, only=j)) / (2 * h)
             add(name, par, value, float(change), s)
     return out
 
