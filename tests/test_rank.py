@@ -190,8 +190,12 @@ def two_discrete(tmp_path_factory):
     path.write_text(WET.read_text() + REVERSER)
     for csv in WET.parent.glob("*.csv"):  # data files the scenario names
         (folder / csv.name).write_text(csv.read_text())
+    from landrisk.studies import RankSettings, rank
+
     scenario, uncertain = api.load_study(str(path))
-    return api.rank(scenario, uncertain, calls=900, seed=2, mc_check=20_000), path
+    settings = RankSettings(calls=900, seed=2, mc_check=20_000, surrogate_samples=100_000,
+                            importance_samples=6_000, tail_checks=60, form_iterations=8)
+    return rank(scenario, uncertain.problem(), settings), path
 
 
 def test_every_discrete_input_has_its_own_row_and_swing(two_discrete) -> None:
@@ -240,6 +244,7 @@ def test_discrete_indices_match_a_brute_force_variance_decomposition(two_discret
         assert ours.first == pytest.approx(s_first, abs=0.02), name
 
 
+@pytest.mark.slow
 def test_tail_check_passes_on_the_demo_and_fails_on_a_poor_surrogate() -> None:
     scenario, uncertain = api.load_study()
     good = api.rank(scenario, uncertain, calls=1000, seed=1, mc_check=100_000)

@@ -91,6 +91,7 @@ class RankSettings:
     mc_check: int = 100_000
     risk_samples: int = 1 << 16  # Monte Carlo overrun samples when there is no Monte Carlo check
     importance_samples: int = 20_000  # around the FORM design points, for the overrun samples
+    form_iterations: int = 30  # HL-RF iterations per branch (one without convergence: sampled plainly)
     shapley_outer: int = 200  # Shapley effects on the surrogate: outer samples per subset of inputs
     confidence: float = 0.95
 
@@ -290,7 +291,7 @@ def _swings(scenario: Scenario, problem: Problem) -> list[tuple[float, float, fl
 
 
 def _form_importance(
-    scenario: Scenario, problem: Problem, rng: np.random.Generator
+    scenario: Scenario, problem: Problem, rng: np.random.Generator, max_iter: int = 30
 ) -> tuple[dict[str, float], float | None, int, dict[int, DesignPoint]]:
     """FORM importance factors alpha^2 of the continuous inputs at the design point of the branch that
     contributes most to P(overrun) (Hasofer & Lind 1974; see landrisk.uq.rare); every branch's converged
@@ -302,7 +303,7 @@ def _form_importance(
     points: dict[int, DesignPoint] = {}
     for k, b in enumerate(discrete_branches(problem, disc)):
         g, _ = limit_state(scenario, cont, b.values)
-        dps, c = form(g, cont.dimension, seed=rng)
+        dps, c = form(g, cont.dimension, seed=rng, max_iter=max_iter)
         calls += c
         if dps[0].converged:
             points[k] = dps[0]
@@ -449,7 +450,7 @@ def rank(scenario: Scenario, problem: Problem, settings: RankSettings | None = N
     rng = normalize_seed(s.seed)
     swings = _swings(scenario, problem)
     breakdown = {"one-at-a-time swings": 2 * problem.dimension}
-    form_importance, form_beta, form_calls, points = _form_importance(scenario, problem, rng)
+    form_importance, form_beta, form_calls, points = _form_importance(scenario, problem, rng, s.form_iterations)
     breakdown["FORM importance factors"] = form_calls
     n_mc = s.mc_check if s.method == "pce" and s.mc_check > 0 else s.risk_samples
     run = _monte_carlo_run(scenario, problem, n_mc, rng)
