@@ -450,7 +450,8 @@ def rank(scenario: Scenario, problem: Problem, settings: RankSettings | None = N
     rng = normalize_seed(s.seed)
     swings = _swings(scenario, problem)
     breakdown = {"one-at-a-time swings": 2 * problem.dimension}
-    form_importance, form_beta, form_calls, points = _form_importance(scenario, problem, rng, s.form_iterations)
+    form_importance, form_beta, form_calls, points = _form_importance(scenario, problem, rng,
+                                                                      s.form_iterations)
     breakdown["FORM importance factors"] = form_calls
     n_mc = s.mc_check if s.method == "pce" and s.mc_check > 0 else s.risk_samples
     run = _monte_carlo_run(scenario, problem, n_mc, rng)
