@@ -216,6 +216,27 @@ def test_every_discrete_input_has_its_own_row_and_swing(two_discrete) -> None:
     assert "runway.condition_code" in names and "procedure.use_reverse" in names
 
 
+def test_discrete_inputs_appear_in_every_figure_and_table(two_discrete) -> None:
+    from landrisk.export import rank_table
+    from landrisk.export.tables import overrun_profile_table
+    from landrisk.plotting import indices_figure, overrun_profile_figure, tornado_figure
+
+    r, _ = two_discrete
+    for make in (indices_figure, tornado_figure):
+        fig = make(r)
+        labels = " ".join(t.get_text() for t in fig.axes[0].get_yticklabels())
+        for name in ("runway.condition_code", "procedure.use_reverse"):
+            assert name in labels, (make.__name__, name)
+        assert "&" not in labels
+    tornado = " ".join(t.get_text() for t in tornado_figure(r).axes[0].get_yticklabels())
+    assert "3 to 5" in tornado and "False to True" in tornado  # the branches named in the key's type
+    titles = {ax.get_title() for ax in overrun_profile_figure(r).axes}
+    assert {"runway.condition_code", "procedure.use_reverse"} <= titles
+    for table in (rank_table(r), overrun_profile_table(r)):
+        names = list(table.iloc[:, 0])
+        assert len(names) == len(set(names)) == r.problem.dimension
+
+
 def test_discrete_indices_match_a_brute_force_variance_decomposition(two_discrete) -> None:
     # S_D = Var(E[Y | D]) / V by Monte Carlo on the real solver: E[Y | D = d] from samples with D fixed
     # at d (the law of total variance; Sobol 1993). 20 000 samples per level give a standard error of

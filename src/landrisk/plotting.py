@@ -154,7 +154,9 @@ def _value_text(name: str, v: float) -> str:
     if spec is not None and spec.unit in ("", "1") and isinstance(spec.cast(v), bool | int):
         return str(spec.cast(v))
     factor, unit = _display_unit(name)
-    return f"{v * factor:.4g} {unit}".rstrip()
+    shown = v * factor
+    text = f"{shown:,.0f}" if abs(shown) >= 1e4 else f"{shown:.4g}"
+    return f"{text} {unit}".rstrip()
 
 
 def indices_figure(r: Ranking) -> Figure:

@@ -193,7 +193,7 @@ def render_rank(r: Ranking, written: list[str] | None = None) -> str:
             lines.append(f"    values: {', '.join(i.levels)}")
     lines.append("  (swing: the input at its 5th and then 95th percentile, a discrete input at its least and "
                  "greatest value, the others nominal)")
-    if shap:
+    if shap and r.shapley is not None:
         lines.append("  Inputs are correlated: the Sobol indices depend on the order of the inputs in the "
                      "file (the first of a correlated pair carries the shared part); the Shapley effects "
                      f"(Owen 2014, on the surrogate, standard error <= {np.max(r.shapley.se):.3f}) do not.")

@@ -92,7 +92,7 @@ class RankSettings:
     risk_samples: int = 1 << 16  # Monte Carlo overrun samples when there is no Monte Carlo check
     importance_samples: int = 20_000  # around the FORM design points, for the overrun samples
     form_iterations: int = 30  # HL-RF iterations per branch (one without convergence: sampled plainly)
-    shapley_outer: int = 200  # Shapley effects on the surrogate: outer samples per subset of inputs
+    shapley_outer: int = 500  # Shapley effects on the surrogate: outer samples per subset of inputs
     confidence: float = 0.95
 
 

@@ -78,24 +78,28 @@ def shapley_effects(
     if d > 10:
         raise ValueError(f"Shapley effects by subset enumeration take at most 10 inputs, not {d}")
     chol = np.linalg.cholesky(r)
-    y = model(rng.normal(size=(n_variance, d)) @ chol.T)
+    z_var = rng.normal(size=(n_variance, d)) @ chol.T
+    subsets = [u for size in range(1, d) for u in itertools.combinations(range(d), size)]
+    blocks = [z_var]
+    for u in subsets:  # every subset's conditional samples, evaluated in one model call
+        rest = [j for j in range(d) if j not in u]
+        b, lc = _conditional(r, list(u), rest)
+        z_rest = rng.normal(size=(n_outer, len(rest))) @ np.linalg.cholesky(r[np.ix_(rest, rest)]).T
+        z = np.empty((n_outer, n_inner, d))
+        z[:, :, rest] = z_rest[:, None, :]
+        z[:, :, list(u)] = (z_rest @ b.T)[:, None, :] + rng.normal(size=(n_outer, n_inner, len(u))) @ lc.T
+        blocks.append(z.reshape(-1, d))
+    y_all = model(np.concatenate(blocks))
+    y = y_all[:n_variance]
     var = float(np.var(y, ddof=1))
     var_se = float(np.std((y - y.mean()) ** 2, ddof=1) / math.sqrt(n_variance))
     cost: dict[tuple[int, ...], tuple[float, float]] = {(): (0.0, 0.0), tuple(range(d)): (var, 0.0)}
-    calls = n_variance
-    for size in range(1, d):
-        for u in itertools.combinations(range(d), size):
-            rest = [j for j in range(d) if j not in u]
-            b, lc = _conditional(r, list(u), rest)
-            z_rest = rng.normal(size=(n_outer, len(rest))) @ np.linalg.cholesky(r[np.ix_(rest, rest)]).T
-            mean_u = z_rest @ b.T  # (n_outer, |u|)
-            z = np.empty((n_outer, n_inner, d))
-            z[:, :, rest] = z_rest[:, None, :]
-            z[:, :, list(u)] = mean_u[:, None, :] + rng.normal(size=(n_outer, n_inner, size)) @ lc.T
-            yi = model(z.reshape(-1, d)).reshape(n_outer, n_inner)
-            v = np.var(yi, axis=1, ddof=1)
-            cost[u] = (float(v.mean()), float(v.std(ddof=1) / math.sqrt(n_outer)))
-            calls += n_outer * n_inner
+    per = n_outer * n_inner
+    for k, u in enumerate(subsets):
+        yi = y_all[n_variance + k * per: n_variance + (k + 1) * per].reshape(n_outer, n_inner)
+        v = np.var(yi, axis=1, ddof=1)
+        cost[u] = (float(v.mean()), float(v.std(ddof=1) / math.sqrt(n_outer)))
+    calls = int(y_all.size)
     eff = np.zeros(d)
     se2 = np.zeros(d)
     for i in range(d):
