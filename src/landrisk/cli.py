@@ -259,7 +259,8 @@ def _order(value: str) -> int | None:
               help="Monte Carlo solver runs to check the surrogate against (0: none).")
 @_set_option
 @click.option("--out", "out_dir", type=click.Path(file_okay=False),
-              help="Write ranking.json, indices.csv and the index and tornado figures to this folder.")
+              help="Write ranking.json, indices.csv, overrun-profile.csv and the index, tornado and "
+                   "overrun-profile figures to this folder.")
 @click.option("--force", is_flag=True, help="Replace existing output files.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of the table.")
 @_reported
@@ -267,9 +268,12 @@ def rank(config: str | None, method: str, order: str, calls: int | None, seed: i
          overrides: tuple[str, ...], out_dir: str | None, force: bool, as_json: bool) -> None:
     """Rank the uncertain inputs by their influence on the landing distance and on the overrun.
 
-    Prints first-order and total Sobol indices of the total distance for every uncertain input, the
-    one-at-a-time swings of the distance and of the margin, the surrogate's validation error and tail
-    check, and Sobol indices of the overrun indicator from the real solver.
+    Prints first-order and total Sobol indices of the total distance for every uncertain input (each
+    discrete input its own row), Shapley effects when inputs are correlated, the one-at-a-time swings of
+    the distance and of the margin, the surrogate's validation error and its tail check (its P99 and
+    P(overrun) against a Monte Carlo run of the real solver), and, from overrun samples of the real
+    solver: each input's first-order index of the overrun indicator, its median given an overrun, and
+    the change of P(overrun) per stated change of each distribution parameter.
     """
     from landrisk import api, report
 

@@ -35,6 +35,7 @@ __all__ = [
     "figure_bytes",
     "histogram_figure",
     "indices_figure",
+    "overrun_profile_figure",
     "risk_curve_figure",
     "tornado_figure",
 ]
@@ -171,36 +172,80 @@ def figure_bytes(fig: Figure, fmt: str, record: dict[str, Any]) -> bytes:
     return buf.getvalue()
 
 
+def _display_unit(name: str) -> tuple[float, str]:
+    """(factor, unit) to show a key's SI value in the unit a scenario file uses for it (kt for speeds)."""
+    unit = KEYS[name].unit.replace("**", "^") if name in KEYS else ""
+    if unit == "m/s":
+        return 3600.0 / 1852.0, "kt"  # 1 kt = 1852 m / 3600 s (exact by definition)
+    return 1.0, unit
+
+
+def _value_text(name: str, v: float) -> str:
+    """A value in its key's type and display unit: ``True``, ``3``, ``12 kt``, ``420 m``."""
+    spec = KEYS.get(name)
+    if spec is not None and spec.unit in ("", "1") and isinstance(spec.cast(v), bool | int):
+        return str(spec.cast(v))
+    factor, unit = _display_unit(name)
+    shown = v * factor
+    text = f"{shown:,.0f}" if abs(shown) >= 1e4 else f"{shown:.4g}"
+    return f"{text} {unit}".rstrip()
+
+
 def indices_figure(r: Ranking) -> Figure:
-    """First-order and total Sobol indices of the total landing distance, per input."""
+    """Sobol indices of the total landing distance per input (discrete inputs each their own bar), the
+    Shapley effects beside them with correlated inputs, and each input's first-order index of the overrun
+    indicator in a second panel."""
     plt = _pyplot()
     names = [i.name for i in r.inputs]
     y = np.arange(len(names))
-    fig, ax = plt.subplots(figsize=(8, 0.5 * len(names) + 2.2))
-    ax.barh(y - 0.2, [i.first for i in r.inputs], height=0.4, label="first order")
-    ax.barh(y + 0.2, [i.total for i in r.inputs], height=0.4, label="total")
+    overrun = {i.name: i for i in r.overrun.indices} if r.overrun is not None else {}
+    fig, (ax, ax2) = plt.subplots(1, 2, figsize=(11, 0.55 * len(names) + 2.6), sharey=True,
+                                  gridspec_kw={"width_ratios": [3, 2]})
+    shap = dict(zip(r.shapley.names, r.shapley.effects, strict=True)) if r.shapley is not None else {}
+    h = 0.27 if shap else 0.4
+    ax.barh(y - h / (1 if shap else 2), [i.first for i in r.inputs], height=h, label="first order")
+    ax.barh(y + (0 if shap else h / 2), [i.total for i in r.inputs], height=h, label="total")
+    if shap:
+        ax.barh(y + h, [shap.get(n, 0.0) for n in names], height=h, label="Shapley effect")
     if r.method == "mc":
         for k, i in enumerate(r.inputs):
-            ax.plot(i.total_ci, [k + 0.2] * 2, color="black", lw=1)
-            ax.plot(i.first_ci, [k - 0.2] * 2, color="black", lw=1)
-    ax.set_yticks(y, names, fontsize=8)
+            ax.plot(i.total_ci, [k + h / 2] * 2, color="black", lw=1)
+            ax.plot(i.first_ci, [k - h / 2] * 2, color="black", lw=1)
+    labels = [n + (" (discrete)" if i.discrete else "") for n, i in zip(names, r.inputs, strict=True)]
+    ax.set_yticks(y, labels, fontsize=8)
     ax.invert_yaxis()
-    ax.set_xlabel("Sobol index of the total landing distance")
+    ax.set_xlabel("index of the total landing distance", fontsize=8)
+    ax.legend(fontsize=7, loc="lower right")
+    ax.grid(True, axis="x", alpha=0.3)
+    vals = [overrun[n].first_order if n in overrun else None for n in names]
+    shown = [v if v is not None else 0.0 for v in vals]
+    ax2.barh(y, shown, height=0.5, color="tab:red")
+    for k, n in enumerate(names):
+        o = overrun.get(n)
+        if o is not None and o.ci is not None:
+            ax2.plot(o.ci, [k] * 2, color="black", lw=1)
+        elif n in overrun:
+            ax2.text(0, k, "  too few overruns", va="center", fontsize=7)
+    ax2.set_xlabel("first-order index of the overrun indicator", fontsize=8)
+    ax2.grid(True, axis="x", alpha=0.3)
+    if any(v is not None and v > 0 for v in vals):
+        ax2.set_xscale("log")
     method = (f"polynomial chaos, {r.calls} solver calls" if r.method == "pce"
               else f"Monte Carlo, {r.calls:,} solver calls")
-    ax.set_title(f"Which inputs drive the landing distance: {r.scenario.name} ({method})", fontsize=9)
-    ax.legend(fontsize=8)
-    ax.grid(True, axis="x", alpha=0.3)
-    fig.subplots_adjust(left=0.32, bottom=0.22)
+    source = r.overrun.source if r.overrun else "no overrun samples"
+    fig.suptitle(f"Which inputs drive the landing distance and the overrun: {r.scenario.name}\n"
+                 f"({method}; overrun indices from {source})", fontsize=9)
+    fig.subplots_adjust(left=0.27, right=0.97, bottom=0.2, top=0.86, wspace=0.06)
     _footer(fig, r.scenario, f"seed {r.settings.seed}")
     return fig
 
 
 def tornado_figure(r: Ranking) -> Figure:
-    """One-at-a-time swings of the total distance and of the margin to the LDA, largest first."""
+    """One-at-a-time swings of the total distance and of the margin to the LDA, largest first; a discrete
+    input from its least to its greatest value."""
     plt = _pyplot()
     rows = sorted((i for i in r.inputs if np.isfinite(i.swing_total_m)), key=lambda i: -abs(i.swing_total_m))
-    fig, axes = plt.subplots(1, 2, figsize=(10, 0.5 * len(rows) + 2.4), sharey=True)
+    fig, axes = plt.subplots(1, 2, figsize=(10.5, 0.55 * len(rows) + 2.4), sharey=True)
     y = np.arange(len(rows))
     for ax, attr, axis_label in ((axes[0], "swing_total_m", "change of the total distance [m]"),
                                  (axes[1], "swing_margin_m", "change of the margin to the LDA [m]")):
@@ -212,14 +257,70 @@ def tornado_figure(r: Ranking) -> Figure:
         ax.grid(True, axis="x", alpha=0.3)
 
     def label(i: Any) -> str:
-        unit = KEYS[i.name].unit.replace("**", "^") if i.name in KEYS else ""
-        return f"{i.name}\n{i.p5:.4g} to {i.p95:.4g} {unit}".rstrip()
+        return f"{i.name}\n{_value_text(i.name, i.p5)} to {_value_text(i.name, i.p95)}"
 
     axes[0].set_yticks(y, [label(i) for i in rows], fontsize=7)
     axes[0].invert_yaxis()
     fig.suptitle(f"One-at-a-time swings (low to high value, others nominal): {r.scenario.name}", fontsize=9)
-    fig.subplots_adjust(left=0.27, bottom=0.22, wspace=0.08)
+    fig.subplots_adjust(left=0.28, right=0.97, bottom=0.22, wspace=0.08)
     _footer(fig, r.scenario, f"seed {r.settings.seed}; red: longer landing / smaller margin")
+    return fig
+
+
+def overrun_profile_figure(r: Ranking) -> Figure:
+    """Small multiples: each input's distribution given an overrun beside its prior, with both medians, in
+    the unit the scenario file uses (kt for speeds); a discrete input as bars per value."""
+    plt = _pyplot()
+    o = r.overrun
+    d = r.problem.dimension
+    cols = 3 if d > 4 else 2
+    rows = int(np.ceil(d / cols))
+    fig, axes = plt.subplots(rows, cols, figsize=(4 * cols, 2.7 * rows + 1.6), squeeze=False)
+    enough = o is not None and o.effective_events >= 30
+    for k, name in enumerate(r.problem.names):
+        ax = axes[k // cols][k % cols]
+        factor, unit = _display_unit(name)
+        m = r.problem.marginals[k]
+        if o is None:
+            ax.set_axis_off()
+            continue
+        row = o.profile[k]
+        if m.discrete:
+            vals = [v for v, _, _ in row.levels]
+            xk = np.arange(len(vals))
+            ax.bar(xk - 0.2, [p for _, p, _ in row.levels], width=0.4, label="all landings")
+            if enough:
+                ax.bar(xk + 0.2, [q for _, _, q in row.levels], width=0.4, color="tab:red", label="overruns")
+            ax.set_xticks(xk, [_value_text(name, v) for v in vals], fontsize=7)
+            ax.set_ylabel("probability", fontsize=7)
+        else:
+            prior = o.prior_x[:, k] * factor
+            lo, hi = np.quantile(prior, [0.001, 0.999])
+            if enough:
+                lo = min(lo, float(np.min(o.overrun_x[:, k])) * factor)
+                hi = max(hi, float(np.max(o.overrun_x[:, k])) * factor)
+            bins = np.linspace(lo, hi, 40)
+            ax.hist(prior, bins=bins, density=True, alpha=0.5, histtype="stepfilled", label="all landings")
+            ax.axvline(row.prior_median * factor, color="tab:blue", ls="--", lw=1)
+            if enough and row.overrun_median is not None:
+                ax.hist(o.overrun_x[:, k] * factor, bins=bins, weights=o.overrun_w, density=True, alpha=0.6,
+                        histtype="stepfilled",
+                        color="tab:red", label="overruns")
+                ax.axvline(row.overrun_median * factor, color="tab:red", ls="--", lw=1)
+            ax.set_yticks([])
+            ax.set_xlabel(f"[{unit}]" if unit else "", fontsize=7)
+        ax.set_title(name, fontsize=8)
+        ax.tick_params(labelsize=7)
+    for k in range(d, rows * cols):
+        axes[k // cols][k % cols].set_axis_off()
+    axes[0][0].legend(fontsize=7)
+    src = (f"{o.source}, {o.effective_events:.0f} effective overruns" if o is not None else "no samples")
+    if o is not None and not enough:
+        src += ": too few to draw the overrun profile"
+    fig.suptitle(f"Inputs given an overrun (red) beside all landings (blue), dashed: medians: "
+                 f"{r.scenario.name}\n({src})", fontsize=9)
+    fig.subplots_adjust(left=0.05, right=0.98, top=0.88, bottom=0.16, hspace=0.7, wspace=0.15)
+    _footer(fig, r.scenario, f"seed {r.settings.seed}")
     return fig
 
 
@@ -258,6 +359,7 @@ def surrogate_exceedance_figure(r: Ranking) -> Figure:
 
 #: file stem -> figure function, for a ranking (the exceedance figure only with polynomial chaos)
 RANK_FIGURES = {"indices": indices_figure, "tornado": tornado_figure,
+                "overrun-profile": overrun_profile_figure,
                 "surrogate-exceedance": surrogate_exceedance_figure}
 
 

@@ -298,7 +298,7 @@ def render_rank(r: Ranking, written: list[str] | None = None) -> str:
     """The ranking of the uncertain inputs as a readable table."""
     s = r.scenario
     lines = [
-        f"landrisk {__version__} - which uncertain inputs drive the landing distance",
+        f"landrisk {__version__} - which uncertain inputs drive the landing distance and the overrun",
         f"Scenario: {s.name} ({s.source})" + (f" with {', '.join(s.overrides)}" if s.overrides else ""),
     ]
     if r.chaos is not None:
@@ -313,47 +313,30 @@ def render_rank(r: Ranking, written: list[str] | None = None) -> str:
     else:
         lines.append(f"Method: Monte Carlo pick-freeze (Saltelli 2010 first order, Jansen total), "
                      f"{r.calls:,} solver calls, {100 * r.settings.confidence:g} % bootstrap intervals")
-    header = f"  {'input':<34}{'first order':>12}{'total':>9}{'swing of total':>17}{'swing of margin':>17}"
+    shap = dict(zip(r.shapley.names, r.shapley.effects, strict=True)) if r.shapley is not None else {}
+    header = (f"  {'input':<34}{'first order':>12}{'total':>9}" + (f"{'Shapley':>9}" if shap else "")
+              + f"{'swing of total':>17}{'swing of margin':>17}")
     lines += ["", header]
     for i in r.inputs:
         ci = f"  [{i.total_ci[0]:.3f}, {i.total_ci[1]:.3f}]" if i.total_ci else ""
         sw = (f"{i.swing_total_m:+14.0f} m{i.swing_margin_m:+15.0f} m" if np.isfinite(i.swing_total_m)
               else f"{'-':>16}{'-':>17}")
-        lines.append(f"  {i.name:<34}{i.first:12.3f}{i.total:9.3f}{sw}{ci}")
+        sh = f"{shap[i.name]:9.3f}" if i.name in shap else ""
+        lines.append(f"  {i.name:<34}{i.first:12.3f}{i.total:9.3f}{sh}{sw}{ci}")
+        if i.levels:
+            lines.append(f"    values: {', '.join(i.levels)}")
     lines.append("  (swing: the input at its 5th and then 95th percentile, a discrete input at its least and "
                  "greatest value, the others nominal)")
+    if shap and r.shapley is not None:
+        lines.append("  Inputs are correlated: the Sobol indices depend on the order of the inputs in the "
+                     "file (the first of a correlated pair carries the shared part); the Shapley effects "
+                     f"(Owen 2014, on the surrogate, standard error <= {np.max(r.shapley.se):.3f}) do not.")
     if r.second_order:
         pairs = ", ".join(f"{a} x {b} {v:.3f}" for a, b, v in r.second_order)
         lines.append(f"  largest interactions: {pairs}")
     if r.surrogate is not None and r.tail is not None:
-        sur, t = r.surrogate, r.tail
-        by = {p.p: p for p in sur.percentiles}
-        lines += ["", f"From {sur.samples:,} surrogate samples: mean {sur.mean_m:.1f} m, sd "
-                  f"{sur.sd_m:.1f} m, P50 {by[50.0].value:.1f} m, P99 {by[99.0].value:.1f} m, "
-                  f"P(overrun) {sur.p_overrun.text()}",
-                  f"  tail check on the real solver ({t.calls} samples in the tail and near "
-                  f"the runway end): RMS error {100 * t.rel_rms:.2f} %, largest "
-                  f"{100 * t.max_rel:.1f} %, {t.misclassified_overruns} of {t.near_runway_end} "
-                  "overruns misclassified: " + ("passed" if t.passed else _TAIL_FAILED)]
-        if r.mc_check is not None:
-            m = r.mc_check
-            d = m.rel_diff
-            lines.append(f"  Monte Carlo check ({m.samples:,} solver runs): mean {m.mean_m:.1f} m "
-                         f"({100 * d['mean']:+.2f} %), sd {m.sd_m:.1f} m ({100 * d['sd']:+.2f} %), P50 "
-                         f"{m.p50_m:.1f} m ({100 * d['p50']:+.2f} %), P99 {m.p99_m:.1f} m "
-                         f"({100 * d['p99']:+.2f} %), P(overrun) {m.p_overrun.text()}")
-    if r.risk is not None:
-        lines += ["", "Influence on the overrun itself: Sobol indices of the overrun indicator, Monte Carlo "
-                  f"on the solver ({r.risk_events} overruns in {2 * r.settings.risk_samples:,} samples)"]
-        order = np.argsort(-r.risk.total)
-        if r.form_importance:
-            lines.append(f"  {'input':<34}{'first order':>12}{'total':>9}  {'95 % interval':<16}"
-                         f"FORM alpha^2 (beta {r.form_beta:.2f})")
-        for k in order:
-            a2 = r.form_importance.get(r.risk.names[k])
-            lines.append(f"  {r.risk.names[k]:<34}{r.risk.first[k]:12.3f}{r.risk.total[k]:9.3f}  "
-                         f"{f'[{r.risk.total_ci[k, 0]:.3f}, {r.risk.total_ci[k, 1]:.3f}]':<16}"
-                         + (f"{a2:.3f}" if a2 is not None else "-"))
+        lines += _surrogate_lines(r)
+    lines += _overrun_lines(r)
     return _closing(lines, r.warnings, written)
 
 
@@ -389,6 +372,105 @@ def _rare_branch_line(b: Any) -> str:
     extra = f", CoV {100 * e.cov:.1f} %" if e.cov and np.isfinite(e.cov) else ""
     ci = f" [{e.ci[0]:.2e}, {e.ci[1]:.2e}]" if e.method not in ("form", "sorm") and e.converged else ""
     return f"    {label} (probability {b.probability:g}): {e.probability:.3e}{ci}{extra}, {e.calls:,} calls"
+
+
+def _surrogate_lines(r: Ranking) -> list[str]:
+    """The surrogate's figures, its tail check and the Monte Carlo check."""
+    sur, t = r.surrogate, r.tail
+    assert sur is not None and t is not None
+    by = {p.p: p for p in sur.percentiles}
+    lines = ["", f"From {sur.samples:,} surrogate samples: mean {sur.mean_m:.1f} m, sd "
+             f"{sur.sd_m:.1f} m, P50 {by[50.0].value:.1f} m, P99 {by[99.0].value:.1f} m, "
+             f"P(overrun) {sur.p_overrun.text()}"]
+    if r.mc_check is not None:
+        m = r.mc_check
+        d = m.rel_diff
+        lines.append(f"  Monte Carlo check ({m.samples:,} solver runs): mean {m.mean_m:.1f} m "
+                     f"({100 * d['mean']:+.2f} %), sd {m.sd_m:.1f} m ({100 * d['sd']:+.2f} %), P50 "
+                     f"{m.p50_m:.1f} m ({100 * d['p50']:+.2f} %), P99 {m.p99_m:.1f} m "
+                     f"({100 * d['p99']:+.2f} %), P(overrun) {m.p_overrun.text()}")
+    verdict = "passed" if t.passed else _TAIL_FAILED
+    lines.append(f"  tail check: {verdict}")
+    if t.p99_surrogate is not None and t.p99_mc is not None:
+        a, b = t.p99_surrogate, t.p99_mc
+        lines.append(f"    P99: surrogate {a[0]:.1f} m [{a[1]:.1f}, {a[2]:.1f}], real solver {b[0]:.1f} m "
+                     f"[{b[1]:.1f}, {b[2]:.1f}]: " + ("intervals meet" if t.p99_passed else "DISAGREE"))
+    if t.p_overrun_surrogate is not None and t.p_overrun_mc is not None:
+        a, b = t.p_overrun_surrogate, t.p_overrun_mc
+        lines.append(f"    P(overrun): surrogate {a[0]:.2e} [{a[1]:.2e}, {a[2]:.2e}], real solver {b[0]:.2e} "
+                     f"[{b[1]:.2e}, {b[2]:.2e}]: " + ("intervals meet" if t.p_overrun_passed else "DISAGREE"))
+    lines.append(f"    real solver on {t.calls} surrogate samples in the tail and near the runway end: error "
+                 f"band {t.band_m:.1f} m (twice the RMS error near the runway end); "
+                 f"{t.misclassified_overruns} of {t.near_runway_end} near the runway end on the wrong side "
+                 f"by more than the band ({t.misclassified_within_band} more within it)")
+    if t.note:
+        lines.append(f"    note: {t.note}")
+    return lines
+
+
+def _level(key: str, v: float) -> str:
+    """A discrete input's value in its key's type (True, 3)."""
+    from landrisk.model import KEYS
+
+    return str(KEYS[key].cast(v)) if key in KEYS else f"{v:g}"
+
+
+_DIMENSIONLESS = ("sigma_log", "shape", "alpha", "beta")
+
+
+def _change(key: str, parameter: str, change: float) -> str:
+    """A parameter's stated change, in the key's display unit where the parameter has it."""
+    if parameter in _DIMENSIONLESS or parameter.startswith("P("):
+        return f"{change:+.3g}"
+    return "+" + _show(key, change)
+
+
+def _fmt_index(v: float | None) -> str:
+    return "-" if v is None else (f"{v:.3f}" if v >= 0.01 else f"{v:.1e}")
+
+
+def _overrun_lines(r: Ranking) -> list[str]:
+    """Influence on the overrun: indicator indices, the overrun profile, parameter sensitivities."""
+    o = r.overrun
+    if o is None:
+        return []
+    lines = ["", f"Influence on the overrun itself, from {o.source}: {o.events:,} overrun samples "
+             f"({o.effective_events:,.0f} effective), P(overrun) {o.p_overrun:.2e}"]
+    lines.append(f"  {'input':<34}{'median':>14}{'given overrun':>15}{'first-order index':>19}  "
+                 f"{'95 % interval':<20}" + ("FORM alpha^2" if r.form_importance else ""))
+    pairs = sorted(zip(o.profile, o.indices, strict=True),
+                   key=lambda t: -(t[1].first_order if t[1].first_order is not None else -1.0))
+    for p, i in pairs:
+        med = _level(p.name, p.prior_median) if p.discrete else _show(p.name, p.prior_median)
+        given = "-" if p.overrun_median is None else (
+            _level(p.name, p.overrun_median) if p.discrete else _show(p.name, p.overrun_median))
+        ci = f"[{_fmt_index(i.ci[0])}, {_fmt_index(i.ci[1])}]" if i.ci else "-"
+        a2 = r.form_importance.get(p.name)
+        lines.append(f"  {p.name:<34}{med:>14}{given:>15}{_fmt_index(i.first_order):>19}  {ci:<20}"
+                     + (f"{a2:.3f}" if a2 is not None else ""))
+        if p.discrete and p.overrun_median is not None:
+            lines.append("    " + ", ".join(f"{_level(p.name, v)}: {100 * a:.3g} % of landings, "
+                                            f"{100 * b:.3g} % of overruns" for v, a, b in p.levels))
+    notes = {i.note for i in o.indices if i.note}
+    lines += [f"  note: {n}" for n in notes]
+    lines.append("  (first-order indices of the overrun indicator by Bayes' rule from the overrun samples, "
+                 "Perrin & Defaux 2019; for a rare overrun they are small by nature, the rest being "
+                 "interactions: read the medians given an overrun and the sensitivities below)")
+    if r.overrun_mc is not None:
+        m = r.overrun_mc
+        lines.append(f"  cross-check from {m.source}: P(overrun) {m.p_overrun:.2e}, "
+                     f"{m.effective_events:,.0f} effective overruns")
+    if o.sensitivity:
+        lines += ["", "What to control: change of P(overrun) for a stated change of each distribution "
+                  "parameter (score function, first order)"]
+        for q in sorted(o.sensitivity, key=lambda q: -abs(q.dp)):
+            lines.append(f"  {q.input:<34}{q.parameter:<11}{_change(q.input, q.parameter, q.change):>12} -> "
+                         f"{q.dp:+.2e} "
+                         f"[{q.ci[0]:+.1e}, {q.ci[1]:+.1e}] ({100 * q.dp / o.p_overrun:+.1f} %)")
+        lines.append("  (change: a tenth of the input's spread for a mean, median or mode, a tenth of the "
+                     "value otherwise; bounds of uniform or triangular inputs move the support and are not "
+                     "given)")
+    return lines
 
 
 def render_rare(r: RareAssessment, written: list[str] | None = None) -> str:

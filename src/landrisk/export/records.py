@@ -206,7 +206,63 @@ def _chaos_record(r: Ranking) -> dict[str, Any]:
             "holdout_max_rel_error": c.holdout_max_rel_error, "tail_check_calls": t.calls,
             "tail_rel_rms": t.rel_rms, "tail_max_rel": t.max_rel, "tail_bias_rel": t.bias_rel,
             "near_runway_end": t.near_runway_end, "misclassified_overruns": t.misclassified_overruns,
-            "tail_ok": t.passed, "reliable": r.reliable}
+            "tail_ok": t.passed, "reliable": r.reliable, "error_band_m": t.band_m}
+
+
+def _triple(v: tuple[float, float, float] | None) -> dict[str, float] | None:
+    return None if v is None else {"value": v[0], "ci_lo": v[1], "ci_hi": v[2]}
+
+
+def _tail_record(r: Ranking) -> dict[str, Any]:
+    """The surrogate's P99 and P(overrun) against the Monte Carlo check's, and what failed."""
+    t = r.tail
+    assert t is not None
+    return {"passed": t.passed,
+            "p99_m": {"surrogate": _triple(t.p99_surrogate), "monte_carlo": _triple(t.p99_mc),
+                      "passed": t.p99_passed},
+            "p_overrun": {"surrogate": _triple(t.p_overrun_surrogate), "monte_carlo": _triple(t.p_overrun_mc),
+                          "within_error_band": list(t.p_overrun_band) if t.p_overrun_band else None,
+                          "passed": t.p_overrun_passed},
+            "error_band_m": t.band_m, "calls": t.calls, "near_runway_end": t.near_runway_end,
+            "misclassified_outside_band": t.misclassified_overruns,
+            "misclassified_within_band": t.misclassified_within_band, "note": t.note}
+
+
+def _overrun_record(r: Ranking) -> dict[str, Any]:
+    """Influence on the overrun from failure samples: indices, profile, parameter sensitivities, and the
+    Shapley effects and the tail check where there are some."""
+    out: dict[str, Any] = {}
+    o = r.overrun
+    if o is not None:
+        out["overrun_samples"] = {"source": o.source, "samples": o.samples, "calls": o.calls,
+                                  "overruns": o.events, "effective_overruns": o.effective_events,
+                                  "p_overrun": o.p_overrun}
+        out["overrun_indices"] = [{"name": i.name, "first_order": i.first_order,
+                                   "first_order_ci95": list(i.ci) if i.ci else None,
+                                   **({"note": i.note} if i.note else {})} for i in o.indices]
+        out["overrun_profile"] = [{"name": p.name, "unit": p.unit, "prior_median": p.prior_median,
+                                   "overrun_median": p.overrun_median, "shift": p.shift,
+                                   **({"levels": [{"value": v, "prior": a, "given_overrun": b}
+                                                  for v, a, b in p.levels]} if p.discrete else {})}
+                                  for p in o.profile]
+        out["parameter_sensitivity"] = [{"input": q.input, "parameter": q.parameter, "value": q.value,
+                                         "change": q.change, "dp_overrun": q.dp,
+                                         "dp_overrun_ci95": list(q.ci), "derivative": q.derivative}
+                                        for q in o.sensitivity]
+    if r.overrun_mc is not None:
+        m = r.overrun_mc
+        out["overrun_indices_cross_check"] = {
+            "source": m.source, "effective_overruns": m.effective_events, "p_overrun": m.p_overrun,
+            "inputs": [{"name": i.name, "first_order": i.first_order,
+                        "first_order_ci95": list(i.ci) if i.ci else None} for i in m.indices]}
+    if r.shapley is not None:
+        sh = r.shapley
+        out["shapley"] = {"output": "total_m", "calls_on_surrogate": sh.calls,
+                          "inputs": [{"name": n, "effect": float(e), "se": float(se)}
+                                     for n, e, se in zip(sh.names, sh.effects, sh.se, strict=True)]}
+    if r.tail is not None:
+        out["tail_check"] = _tail_record(r)
+    return out
 
 
 def _ranking_figures(r: Ranking) -> dict[str, Any]:
@@ -225,7 +281,7 @@ def _ranking_figures(r: Ranking) -> dict[str, Any]:
                     "p95": None if i.discrete and np.isnan(i.p95) else i.p95,
                     "swing_total_m": _nan_none(i.swing_total_m),
                     "swing_margin_m": _nan_none(i.swing_margin_m),
-                    "discrete": i.discrete} for i in r.inputs],
+                    "discrete": i.discrete, "levels": list(i.levels)} for i in r.inputs],
         "second_order": [{"pair": [a, b], "index": v} for a, b, v in r.second_order],
         "phase_indices": {ph: {n: {"first_order": f, "total": t} for n, (f, t) in d.items()}
                           for ph, d in r.phase_indices.items()},
@@ -233,13 +289,7 @@ def _ranking_figures(r: Ranking) -> dict[str, Any]:
     if r.form_importance:
         out["form_importance_alpha2"] = r.form_importance
         out["form_beta"] = r.form_beta
-    if r.risk is not None:
-        out["overrun_indicator_indices"] = {
-            "events": r.risk_events, "samples": 2 * r.settings.risk_samples, "calls": r.risk.calls,
-            "inputs": [{"name": n, "first_order": float(f), "total": float(t), "first_order_ci95": list(fc),
-                        "total_ci95": list(tc)} for n, f, t, fc, tc in
-                       zip(r.risk.names, r.risk.first, r.risk.total, r.risk.first_ci.tolist(),
-                           r.risk.total_ci.tolist(), strict=True)]}
+    out.update(_overrun_record(r))
     if r.method == "pce" and r.chaos is not None and r.surrogate is not None:
         chaos = _chaos_record(r)
         out.update({"order": chaos["order"], "q_norm": chaos["q_norm"],

@@ -22,8 +22,8 @@ if TYPE_CHECKING:
 
     from landrisk.studies import Assessment, Ranking, RareAssessment
 
-__all__ = ["landings_table", "percentile_table", "rank_table", "risk_curve_table", "samples_columns",
-           "samples_table"]
+__all__ = ["landings_table", "overrun_profile_table", "percentile_table", "rank_table", "risk_curve_table",
+           "samples_columns", "samples_table"]
 
 Units = DisplayUnits | str | None
 
@@ -140,8 +140,27 @@ def rank_table(r: Ranking, units: Units = None) -> pd.DataFrame:
                      "low_value": du.value(kind, i.p5) if kind else i.p5,
                      "high_value": du.value(kind, i.p95) if kind else i.p95, "unit": sym,
                      _head("swing_total", u): du.length(i.swing_total_m),
-                     _head("swing_margin", u): du.length(i.swing_margin_m), "discrete": i.discrete})
+                     _head("swing_margin", u): du.length(i.swing_margin_m), "discrete": i.discrete,
+                     "levels": "; ".join(i.levels)})
     return _framed(pd.DataFrame(rows))
+
+
+def overrun_profile_table(r: Ranking) -> pd.DataFrame:
+    """One row per input: its median before and given an overrun (SI units of the key), the shift, and
+    the input's first-order index of the overrun indicator."""
+    import pandas as pd
+
+    cols = ["name", "unit", "prior_median", "overrun_median", "shift", "overrun_first_order",
+            "overrun_first_order_ci95_lo", "overrun_first_order_ci95_hi", "note"]
+    o = r.overrun
+    if o is None:
+        return _framed(pd.DataFrame(columns=cols))
+    return _framed(pd.DataFrame([{"name": p.name, "unit": p.unit, "prior_median": p.prior_median,
+                          "overrun_median": p.overrun_median, "shift": p.shift,
+                          "overrun_first_order": i.first_order,
+                          "overrun_first_order_ci95_lo": i.ci[0] if i.ci else None,
+                          "overrun_first_order_ci95_hi": i.ci[1] if i.ci else None, "note": i.note}
+                         for p, i in zip(o.profile, o.indices, strict=True)], columns=cols))
 
 
 def risk_curve_table(r: RareAssessment, units: Units = None) -> pd.DataFrame:

@@ -25,6 +25,7 @@ from landrisk.errors import ConfigError
 from landrisk.export.records import assessment_record, dumps, json_safe, ranking_record, rare_record
 from landrisk.export.tables import (
     Units,
+    overrun_profile_table,
     percentile_table,
     rank_table,
     risk_curve_table,
@@ -245,8 +246,9 @@ def write_ranking(r: Ranking, folder: str | Path, *, force: bool = False, units:
     from landrisk.plotting import RANK_FIGURES
 
     figs = {k: f for k, f in RANK_FIGURES.items() if r.method == "pce" or k != "surrogate-exceedance"}
-    return write_result_set(folder, "ranking.json", ranking_record(r), {"indices.csv": rank_table(r, units)},
-                            figs, r, inputs=r.scenario.values, force=force)
+    tables = {"indices.csv": rank_table(r, units), "overrun-profile.csv": overrun_profile_table(r)}
+    return write_result_set(folder, "ranking.json", ranking_record(r), tables, figs, r,
+                            inputs=r.scenario.values, force=force)
 
 
 def write_rare(r: RareAssessment, folder: str | Path, *, force: bool = False,
