@@ -49,9 +49,12 @@ from landrisk.studies import (
     RareAssessment,
     RareSettings,
 )
+from landrisk.studies.study import StudyResult
 from landrisk.studies import assess as _assess
 from landrisk.studies import rank as _rank
 from landrisk.studies import rare_assess as _rare_assess
+
+from landrisk.export.study import study_record, study_table, write_study
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -80,6 +83,10 @@ __all__ = [
     "write_ranking",
     "write_rare",
     "write_starter",
+    "write_study",
+    "study",
+    "study_record",
+    "study_table",
 ]
 
 #: Older names of the record functions, kept for scripts written against them.
@@ -205,3 +212,44 @@ def rare(
     _warn_fixed(uncertain)
     settings = RareSettings(method=method, seed=seed, target_cov=target_cov, risk_curve=risk_curve, **options)
     return _rare_assess(scenario, uncertain.problem(), settings)
+
+
+def study(
+    path: str | Path,
+    *,
+    seed: int | None = None,
+    samples: int | None = None,
+    workers: int | None = None,
+    use_dask: bool = False,
+    scheduler: str | None = None,
+    cache_dir: str | Path | None = None,
+    progress: Callable[[int, int], None] | None = None,
+) -> StudyResult:
+    """Run the study file at ``path``: every case, comparison and the yearly risk (see studies.study).
+
+    ``seed`` and ``samples`` replace the file's; ``cache_dir`` keeps each finished case so that a rerun
+    computes only what changed (the CLI uses ``<out>/cache``).
+    """
+    from dataclasses import replace
+
+    from landrisk.io.study import CaseCache, load_study_file, resolve_case
+    from landrisk.studies.study import Exposure, StudyCase, StudySettings, exposure_risk, run_study
+
+    spec = load_study_file(path)
+    cases = []
+    for c in spec.cases:
+        scenario, uncertain = resolve_case(spec, c)
+        cases.append(StudyCase(c.name, c.written(), scenario, uncertain.problem(), uncertain.record()))
+    settings = StudySettings(samples=samples or spec.samples, seed=spec.seed if seed is None else seed,
+                             method=spec.method, min_events=spec.min_events, split=spec.split,
+                             subset_samples=spec.subset_samples)
+    result = run_study(cases, [(x.baseline, x.alternative) for x in spec.comparisons], settings,
+                       workers=workers, use_dask=use_dask, scheduler=scheduler,
+                       cache=CaseCache(cache_dir) if cache_dir is not None else None, progress=progress)
+    exposure = None
+    if spec.exposure is not None:
+        x = spec.exposure
+        exposure = exposure_risk(result.cases, Exposure(x.landings_per_year, x.mix, x.target_per_year,
+                                                        x.target_per_landing), settings.confidence)
+    base, _ = resolve_case(spec, type(spec.cases[0])("base", "", ()))
+    return replace(result, name=spec.name, source=spec.source, text=spec.text, base=base, exposure=exposure)

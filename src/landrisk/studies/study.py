@@ -184,6 +184,9 @@ class StudyResult:
     computed: int  # cases and comparisons computed in this run
     reused: int  # taken from the cache
     seconds: float
+    source: str = ""  # the study file
+    text: str = ""  # the study file as read
+    base: Scenario | None = None  # the base scenario, without the cases' overrides
 
 
 # ---------------------------------------------------------------------------------------- units of work
