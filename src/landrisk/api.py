@@ -36,6 +36,7 @@ from landrisk.export import (
     write_ranking,
     write_rare,
 )
+from landrisk.export.study import study_record, study_table, write_study
 from landrisk.io import UncertainSet, load_scenario
 from landrisk.io import load_study as _load_study
 from landrisk.io.config import demo_text
@@ -49,12 +50,10 @@ from landrisk.studies import (
     RareAssessment,
     RareSettings,
 )
-from landrisk.studies.study import StudyResult
 from landrisk.studies import assess as _assess
 from landrisk.studies import rank as _rank
 from landrisk.studies import rare_assess as _rare_assess
-
-from landrisk.export.study import study_record, study_table, write_study
+from landrisk.studies.study import StudyResult
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -79,14 +78,14 @@ __all__ = [
     "solve",
     "solve_many",
     "solve_record",
+    "study",
+    "study_record",
+    "study_table",
     "write_assessment",
     "write_ranking",
     "write_rare",
     "write_starter",
     "write_study",
-    "study",
-    "study_record",
-    "study_table",
 ]
 
 #: Older names of the record functions, kept for scripts written against them.

@@ -175,8 +175,8 @@ def study_table(r: StudyResult) -> pd.DataFrame:
 
 
 def _parquet(frame: pd.DataFrame, meta: dict[str, Any]) -> bytes:
-    import pyarrow as pa
-    import pyarrow.parquet as pq
+    import pyarrow as pa  # type: ignore[import-untyped]
+    import pyarrow.parquet as pq  # type: ignore[import-untyped]
 
     table = pa.Table.from_pandas(frame, preserve_index=False)
     table = table.replace_schema_metadata({**(table.schema.metadata or {}),

@@ -78,19 +78,19 @@ def load_study(
 
 def parse_study(
     text: str, source: str = "<text>", overrides: Iterable[str] = (), base_dir: Path | None = None,
-    tables: Mapping[tuple[str, ...], Any] | None = None,
+    assign: Mapping[tuple[str, ...], Any] | None = None,
 ) -> tuple[Scenario, UncertainSet]:
     """The Scenario and its UncertainSet from TOML ``text``.
 
     ``--set`` on an uncertain key fixes it at the value given: its distribution is dropped and the key
-    is listed in ``UncertainSet.fixed``. ``tables`` sets values of the parsed file before it is checked:
+    is listed in ``UncertainSet.fixed``. ``assign`` sets values of the parsed file before it is checked:
     a path of table names -> value, e.g. ``("uncertain", "runway.braking_mu", "mode") -> 0.25``.
     """
     try:
         raw = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise ConfigError(f"not valid TOML ({exc})", file=source) from None
-    for path, value in (tables or {}).items():
+    for path, value in (assign or {}).items():
         try:
             _assign_path(raw, path, value)
         except ConfigError as exc:

@@ -394,7 +394,7 @@ def resolve_case(study: StudySpec, case: CaseSpec) -> tuple[Scenario, UncertainS
         raise ConfigError("cannot be used as a value", key=f"case {case.name!r}", file=study.source) from None
     try:
         return parse_study(study.scenario_text, study.scenario_source, sets, base_dir=study.scenario_dir,
-                           tables=tables)
+                           assign=tables)
     except ConfigError as exc:
         raise ConfigError(exc.reason, key=exc.key, value=exc.value, allowed=exc.allowed,
                           file=f"{study.source}, case {case.name!r}") from None

@@ -358,20 +358,18 @@ def _case_result(case: StudyCase, key: str, mc: _MCSummary, rare: Any, s: StudyS
     p_mc = event_probability(mc.overruns, mc.n, s.confidence)
     resa = event_probability(mc.beyond_resa, mc.n, s.confidence)
     err = 0.0 if mc.exact else s.bin_width_m
-    common = dict(name=case.name, overrides=dict(case.overrides), mc=p_mc, p_beyond_resa=resa,
-                  percentiles=mc.percentiles, percentile_error_m=err,
-                  lda_m=float(case.scenario.values["runway.lda"]), chunks=mc.chunks, key=key)
+    lda = float(case.scenario.values["runway.lda"])
     if rare is None:
         p = p_mc.estimate
         cov = math.sqrt((1 - p) / (mc.n * p)) if p > 0 else None
-        return CaseResult(method="mc", p_overrun=p, ci=(p_mc.lo, p_mc.hi), cov=cov,
-                          upper_bound_only=p_mc.upper_bound_only, rare_calls=0, **common)
-    prob, cov, ci, calls, msgs = rare
+        return CaseResult(case.name, dict(case.overrides), "mc", p, (p_mc.lo, p_mc.hi), cov,
+                          p_mc.upper_bound_only, p_mc, resa, 0, mc.percentiles, err, lda, mc.chunks, key)
+    prob, rcov, ci, calls, msgs = rare
     note = (f"Monte Carlo saw {mc.overruns} overrun(s) in {mc.n:,} samples (< {s.min_events}): "
             "subset simulation" if s.method == "auto" else "subset simulation (method = subset)")
-    return CaseResult(method="subset", p_overrun=float(prob), ci=(float(ci[0]), float(ci[1])),
-                      cov=float(cov) if math.isfinite(cov) else None, upper_bound_only=False,
-                      rare_calls=int(calls), messages=(note, *msgs), **common)
+    return CaseResult(case.name, dict(case.overrides), "subset", float(prob), (float(ci[0]), float(ci[1])),
+                      float(rcov) if math.isfinite(rcov) else None, False, p_mc, resa, int(calls),
+                      mc.percentiles, err, lda, mc.chunks, key, (note, *msgs))
 
 
 def _merge_chunks(chunks: list[_Chunk], s: StudySettings) -> _MCSummary:
@@ -473,8 +471,8 @@ def _run_cases(engine: _Engine, todo: list[StudyCase], keys: dict[str, str], s: 
         if len(sizes) == 1:
             futures[engine.submit(_mc_case, c.scenario, c.problem, s)] = (c, None)
         else:
-            for i, (m, ss) in enumerate(zip(sizes, chunk_seeds(s.seed, len(sizes)), strict=True)):
-                futures[engine.submit(_mc_chunk, c.scenario, c.problem, m, ss, s)] = (c, i)
+            for k, (m, ss) in enumerate(zip(sizes, chunk_seeds(s.seed, len(sizes)), strict=True)):
+                futures[engine.submit(_mc_chunk, c.scenario, c.problem, m, ss, s)] = (c, k)
     parts: dict[str, list[_Chunk]] = {}
     rare: dict[Any, tuple[StudyCase, _MCSummary]] = {}
 
@@ -487,6 +485,7 @@ def _run_cases(engine: _Engine, todo: list[StudyCase], keys: dict[str, str], s: 
 
     for f in engine.as_completed(list(futures)):
         c, i = futures[f]
+        mc: _MCSummary
         if i is None:
             mc = f.result()
         else:

@@ -98,7 +98,8 @@ class Histogram:
                 continue
             lo_i, hi_i = _order_statistic_indices(n, q, conf)
             h = (n - 1) * q
-            a, b = int(math.floor(h)), min(int(math.floor(h)) + 1, n - 1)
+            a = math.floor(h)
+            b = min(a + 1, n - 1)
             va, vb = self._value_of_rank(a), self._value_of_rank(b)
             lo = self._value_of_rank(lo_i) if lo_i >= 0 else None
             hi = self._value_of_rank(hi_i) if hi_i < n else None
