@@ -372,3 +372,8 @@ def test_a_study_killed_mid_run_resumes(tmp_path: Path) -> None:
     assert resumed.reused == finished and resumed.computed == 6 - finished
     fresh = api.study(p, workers=1)
     assert _comparable(resumed) == _comparable(fresh)
+
+
+def test_study_help_carries_the_caution() -> None:
+    out = " ".join(CliRunner().invoke(main, ["study", "--help"]).output.split())
+    assert "not an operational or certified performance source" in out and "--scheduler" in out
