@@ -377,3 +377,19 @@ def test_a_study_killed_mid_run_resumes(tmp_path: Path) -> None:
 def test_study_help_carries_the_caution() -> None:
     out = " ".join(CliRunner().invoke(main, ["study", "--help"]).output.split())
     assert "not an operational or certified performance source" in out and "--scheduler" in out
+
+
+@pytest.mark.slow
+def test_example_study_runs_with_auto_methods(tmp_path: Path) -> None:
+    example = ROOT / "configs" / "studies" / "invented-study.toml"
+    r = CliRunner().invoke(main, ["study", str(example), "--json", "--workers", "2", "--out", str(tmp_path)])
+    assert r.exit_code == 0, r.output
+    rec = strict_json(r.output)
+    assert isinstance(rec, dict) and len(rec["cases"]) == 12 and len(rec["comparisons"]) == 6
+    methods = {c["method"] for c in rec["cases"]}
+    assert methods <= {"mc", "subset"}
+    for c in rec["cases"]:  # the rule: Monte Carlo exactly where it saw at least 50 overruns
+        assert (c["method"] == "mc") == (c["mc_overruns"] >= 50)
+        assert 0 <= c["p_overrun_ci95"][0] <= c["p_overrun"] <= c["p_overrun_ci95"][1]
+    assert rec["exposure"]["target_status"] in ("met", "not met",
+                                                "undecided: the interval contains the target")
