@@ -284,7 +284,7 @@ def study(study_file: str, out_dir: str | None, as_json: bool, workers: int | No
     written = [str(p) for p in api.write_study(result, out_dir, force=True)] if out_dir else None
     if as_json:
         record = {k: v for k, v in api.study_record(result).items() if not k.endswith("_text")}
-        click.echo(json.dumps(record, indent=2, allow_nan=False))
+        click.echo(json.dumps(record, indent=2, allow_nan=False, default=str))
     else:
         click.echo(report.render_study(result, written))
 
