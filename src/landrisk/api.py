@@ -51,6 +51,7 @@ if TYPE_CHECKING:
     from landrisk.studies import Assessment, AssessSettings, Ranking, RareAssessment
     from landrisk.studies.calibrate import Calibration
     from landrisk.studies.epistemic import EpistemicAssessment
+    from landrisk.studies.study import StudyResult
 
 __all__ = [
     "AssessSettings",
@@ -82,12 +83,16 @@ __all__ = [
     "solve",
     "solve_many",
     "solve_record",
+    "study",
+    "study_record",
+    "study_table",
     "write_assessment",
     "write_calibration",
     "write_epistemic",
     "write_ranking",
     "write_rare",
     "write_starter",
+    "write_study",
 ]
 
 #: Older names of the record functions, kept for scripts written against them.
@@ -359,6 +364,27 @@ def write_epistemic(e: EpistemicAssessment, folder: str | Path, *, force: bool =
     return records.write_epistemic(e, folder, force=force, figures=figures)
 
 
+def study_record(r: StudyResult) -> dict[str, Any]:
+    """The JSON record of a study (see :mod:`landrisk.export.study`)."""
+    from landrisk.export import study as records
+
+    return records.study_record(r)
+
+
+def study_table(r: StudyResult) -> pd.DataFrame:
+    """One row per case of a study: its overrides, method, P(overrun) with interval, yearly figures."""
+    from landrisk.export import study as records
+
+    return records.study_table(r)
+
+
+def write_study(r: StudyResult, folder: str | Path, **options: Any) -> list[Path]:
+    """study.json, study.csv, study.parquet and the study's figures (see export.study.write_study)."""
+    from landrisk.export import study as records
+
+    return records.write_study(r, folder, **options)
+
+
 def __getattr__(name: str) -> Any:
     # The result and settings classes, re-exported without importing every study up front.
     if name in ("AssessSettings", "Assessment"):
@@ -367,3 +393,44 @@ def __getattr__(name: str) -> Any:
         return getattr(module, name)
 
     raise AttributeError(f"module 'landrisk.api' has no attribute {name!r}")
+
+
+def study(
+    path: str | Path,
+    *,
+    seed: int | None = None,
+    samples: int | None = None,
+    workers: int | None = None,
+    use_dask: bool = False,
+    scheduler: str | None = None,
+    cache_dir: str | Path | None = None,
+    progress: Callable[[int, int], None] | None = None,
+) -> StudyResult:
+    """Run the study file at ``path``: every case, comparison and the yearly risk (see studies.study).
+
+    ``seed`` and ``samples`` replace the file's; ``cache_dir`` keeps each finished case so that a rerun
+    computes only what changed (the CLI uses ``<out>/cache``).
+    """
+    from dataclasses import replace
+
+    from landrisk.io.study import CaseCache, load_study_file, resolve_case
+    from landrisk.studies.study import Exposure, StudyCase, StudySettings, exposure_risk, run_study
+
+    spec = load_study_file(path)
+    cases = []
+    for c in spec.cases:
+        scenario, uncertain = resolve_case(spec, c)
+        cases.append(StudyCase(c.name, c.written(), scenario, uncertain.problem(), uncertain.record()))
+    settings = StudySettings(samples=samples or spec.samples, seed=spec.seed if seed is None else seed,
+                             method=spec.method, min_events=spec.min_events, split=spec.split,
+                             subset_samples=spec.subset_samples)
+    result = run_study(cases, [(x.baseline, x.alternative) for x in spec.comparisons], settings,
+                       workers=workers, use_dask=use_dask, scheduler=scheduler,
+                       cache=CaseCache(cache_dir) if cache_dir is not None else None, progress=progress)
+    exposure = None
+    if spec.exposure is not None:
+        x = spec.exposure
+        exposure = exposure_risk(result.cases, Exposure(x.landings_per_year, x.mix, x.target_per_year,
+                                                        x.target_per_landing), settings.confidence)
+    base, _ = resolve_case(spec, type(spec.cases[0])("base", "", ()))
+    return replace(result, name=spec.name, source=spec.source, text=spec.text, base=base, exposure=exposure)

@@ -319,6 +319,79 @@ def calibrate(config: str, reference: str, overrides: tuple[str, ...], out_dir: 
         _echo(report.render_calibration(result, written))
 
 
+class _CaseBar:
+    """One progress bar over the cases and comparisons of a study, on stderr in a terminal only."""
+
+    def __init__(self, enabled: bool) -> None:
+        self.enabled = enabled and sys.stderr.isatty()
+        self.shown = False
+
+    def __call__(self, done: int, total: int) -> None:
+        if not self.enabled or total == 0:
+            return
+        width = 30
+        filled = int(width * done / total)
+        sys.stderr.write(f"\r[{'#' * filled}{'.' * (width - filled)}] {done}/{total} cases and comparisons")
+        sys.stderr.flush()
+        self.shown = True
+
+    def close(self) -> None:
+        if self.shown:
+            sys.stderr.write("\n")
+
+
+@main.command(epilog=_HELP_CAUTION)
+@click.argument("study_file", type=click.Path(dir_okay=False))
+@click.option("--out", "out_dir", type=click.Path(file_okay=False),
+              help="Write study.json, study.csv, study.parquet and the figures; finished cases are kept "
+              "in DIR/cache and reused by a rerun.")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of the table.")
+@click.option("--workers", type=click.IntRange(min=1), default=None,
+              help="Worker processes [default: the number of cores].")
+@click.option("--dask", "use_dask", is_flag=True, help="Run on a dask.distributed LocalCluster.")
+@click.option("--scheduler", metavar="ADDRESS", default=None,
+              help="Run on the dask.distributed scheduler at ADDRESS (tcp://host:8786).")
+@click.option("--seed", type=click.IntRange(min=0), default=None, help="Replace the study's seed.")
+@click.option("--samples", type=click.IntRange(min=100), default=None,
+              help="Replace the study's Monte Carlo samples per case.")
+@click.option("--force", is_flag=True, help="Replace existing output files.")
+@click.option("--quiet", is_flag=True, help="No progress bar.")
+@_reported
+def study(study_file: str, out_dir: str | None, as_json: bool, workers: int | None, use_dask: bool,
+          scheduler: str | None, seed: int | None, samples: int | None, force: bool, quiet: bool) -> None:
+    """Many cases of one scenario: P(overrun) per case, paired comparisons and the yearly risk.
+
+    STUDY_FILE names a base scenario and [[case]] tables and/or a [grid] of overrides (any key, and
+    parameters of uncertain inputs: 'uncertain."runway.braking_mu".mode' = 0.25), optional
+    [[comparison]] pairs evaluated on common random numbers, and an optional [exposure] table (landings
+    per year, a mix of the cases, a target level of safety).
+    """
+    from pathlib import Path
+
+    from landrisk import api, report
+
+    if use_dask and scheduler:
+        raise click.UsageError("give --dask or --scheduler, not both")
+    if out_dir and not force:
+        existing = [n for n in ("study.json", "study.csv") if (Path(out_dir) / n).exists()]
+        if existing:
+            raise LandriskError(f"{out_dir}: {existing[0]} exists; use --force to replace it (finished "
+                                "cases are reused from the cache)")
+    bar = _CaseBar(not quiet)
+    try:
+        result = api.study(study_file, seed=seed, samples=samples, workers=workers, use_dask=use_dask,
+                           scheduler=scheduler, cache_dir=Path(out_dir) / "cache" if out_dir else None,
+                           progress=bar)
+    finally:
+        bar.close()
+    written = [str(p) for p in api.write_study(result, out_dir, force=True)] if out_dir else None
+    if as_json:
+        record = {k: v for k, v in api.study_record(result).items() if not k.endswith("_text")}
+        _echo(api.dumps(record))
+    else:
+        _echo(report.render_study(result, written))
+
+
 @main.command(epilog=_HELP_CAUTION)
 @click.argument("path", type=click.Path(dir_okay=False))
 @click.option("--force", is_flag=True, help="Replace the file if it exists.")

@@ -19,6 +19,7 @@ from landrisk.model import KEYS
 from landrisk.studies import Assessment, Ranking, RareAssessment
 from landrisk.studies.calibrate import Calibration
 from landrisk.studies.epistemic import EpistemicAssessment
+from landrisk.studies.study import StudyResult
 from landrisk.units import DisplayUnits
 from landrisk.uq import exceedance_curve, wilson_interval, zero_event_bound
 
@@ -37,6 +38,10 @@ __all__ = [
     "indices_figure",
     "overrun_profile_figure",
     "risk_curve_figure",
+    "study_cases_figure",
+    "study_comparisons_figure",
+    "study_figures",
+    "study_yearly_figure",
     "tornado_figure",
 ]
 
@@ -467,3 +472,109 @@ def epistemic_figure(e: EpistemicAssessment) -> Figure:
     _footer(fig, e.scenario, f"{r.method}, {r.inner_samples:,} inner samples, {r.solver_calls:,} solver "
             f"calls, seed {e.settings.seed}")
     return fig
+
+
+# ------------------------------------------------------------------------------------------------ studies
+
+
+def _study_footer(fig: Figure, r: StudyResult) -> None:
+    fig.text(0.01, 0.01, f"landrisk {__version__} | study {r.name} ({r.source}) | {r.settings.samples:,} "
+             f"samples per case, seed {r.settings.seed}, method {r.settings.method}\n" + CAUTION,
+             fontsize=6, va="bottom", ha="left", wrap=True)
+
+
+def study_cases_figure(r: StudyResult) -> Figure:
+    """P(overrun) per case on a log axis with its 95 % interval; a triangle for an upper bound only."""
+    plt = _pyplot()
+    n = len(r.cases)
+    fig, ax = plt.subplots(figsize=(8, 1.6 + 0.32 * n))
+    for i, c in enumerate(r.cases):
+        y = n - 1 - i
+        color = "C0" if c.method == "mc" else "C1"
+        if c.upper_bound_only:
+            ax.plot([c.ci[1]], [y], "<", color=color)
+            ax.hlines(y, c.ci[1] / 10, c.ci[1], color=color, ls=":")
+        else:
+            lo, hi = max(c.ci[0], c.p_overrun * 1e-3), c.ci[1]
+            ax.errorbar([c.p_overrun], [y], xerr=[[c.p_overrun - lo], [hi - c.p_overrun]], fmt="o",
+                        color=color, capsize=3)
+    ax.set_yticks(range(n), [c.name for c in reversed(r.cases)], fontsize=7)
+    ax.set_xscale("log")
+    ax.set_xlabel("probability of an overrun per landing (95 % interval)")
+    ax.plot([], [], "o", color="C0", label="Monte Carlo")
+    ax.plot([], [], "o", color="C1", label="subset simulation")
+    ax.plot([], [], "<", color="C0", label="no overrun seen: upper bound")
+    ax.legend(fontsize=7, loc="best")
+    ax.grid(True, which="both", axis="x", alpha=0.3)
+    ax.set_title(f"Overrun probability per case: {r.name}", fontsize=9)
+    fig.subplots_adjust(left=0.38, bottom=0.12 + 0.3 / max(n, 1))
+    _study_footer(fig, r)
+    return fig
+
+
+def study_comparisons_figure(r: StudyResult) -> Figure:
+    """Each comparison's risk ratio P(alternative) / P(baseline) with its paired 95 % interval."""
+    plt = _pyplot()
+    comps = [c for c in r.comparisons if c.paired.ratio is not None]
+    n = max(len(comps), 1)
+    fig, ax = plt.subplots(figsize=(8, 1.6 + 0.35 * n))
+    for i, c in enumerate(comps):
+        p = c.paired
+        assert p.ratio is not None and p.ratio_ci is not None
+        ax.errorbar([p.ratio], [n - 1 - i], xerr=[[p.ratio - p.ratio_ci[0]], [p.ratio_ci[1] - p.ratio]],
+                    fmt="o", color="C2", capsize=3)
+        ax.annotate(f"risk reduction {100 * (1 - p.ratio):.0f} %", (p.ratio, n - 1 - i), fontsize=6,
+                    xytext=(4, 4), textcoords="offset points")
+    ax.set_yticks(range(len(comps)), [f"{c.alternative}\nvs {c.baseline}" for c in reversed(comps)],
+                  fontsize=6)
+    ax.axvline(1.0, color="grey", lw=1)
+    ax.set_xscale("log")
+    ax.set_xlabel("P(overrun) alternative / baseline (paired, common random numbers, 95 % interval)")
+    ax.set_title(f"What each alternative buys: {r.name}", fontsize=9)
+    ax.grid(True, which="both", axis="x", alpha=0.3)
+    fig.subplots_adjust(left=0.4, bottom=0.14 + 0.3 / n)
+    _study_footer(fig, r)
+    return fig
+
+
+def study_yearly_figure(r: StudyResult) -> Figure:
+    """Expected overruns per year per case (and of the mix) with 95 % intervals, against the target."""
+    plt = _pyplot()
+    e = r.exposure
+    assert e is not None
+    rows = [(name, y) for name, y in e.per_case.items()]
+    if e.basis == "mix":
+        rows.append(("mix of the cases", e.yearly))
+    n = len(rows)
+    fig, ax = plt.subplots(figsize=(8, 1.6 + 0.32 * n))
+    for i, (_, y) in enumerate(rows):
+        lam, (lo, hi) = y.overruns_per_year, y.overruns_per_year_ci
+        if lam > 0:
+            lo = max(lo, lam * 1e-3)
+            ax.errorbar([lam], [n - 1 - i], xerr=[[lam - lo], [hi - lam]], fmt="o", capsize=3,
+                        color="C3" if i == n - 1 and e.basis == "mix" else "C0")
+        else:
+            ax.plot([hi], [n - 1 - i], "<", color="C0")
+    if e.target_per_year is not None:
+        ax.axvline(e.target_per_year, color="red", ls="--",
+                   label=f"target {e.target_per_year:.2g} per year ({e.target_status})")
+        ax.legend(fontsize=7, loc="best")
+    ax.set_yticks(range(n), [name for name, _ in reversed(rows)], fontsize=7)
+    ax.set_xscale("log")
+    ax.set_xlabel(f"expected overruns per year at {e.exposure.landings_per_year:,.0f} landings a year "
+                  "(95 % interval)")
+    ax.set_title(f"Yearly overrun risk: {r.name}", fontsize=9)
+    ax.grid(True, which="both", axis="x", alpha=0.3)
+    fig.subplots_adjust(left=0.38, bottom=0.12 + 0.3 / n)
+    _study_footer(fig, r)
+    return fig
+
+
+def study_figures(r: StudyResult) -> dict[str, Any]:
+    """The figures a study writes: cases, and where there are any, comparisons and the yearly risk."""
+    figs: dict[str, Any] = {"study-cases": study_cases_figure}
+    if any(c.paired.ratio is not None for c in r.comparisons):
+        figs["study-comparisons"] = study_comparisons_figure
+    if r.exposure is not None:
+        figs["study-yearly"] = study_yearly_figure
+    return figs

@@ -22,6 +22,7 @@ if TYPE_CHECKING:  # imported with the results themselves, not by printing a lan
     from landrisk.studies import Assessment, Ranking, RareAssessment
     from landrisk.studies.calibrate import Calibration
     from landrisk.studies.epistemic import EpistemicAssessment
+    from landrisk.studies.study import StudyResult
     from landrisk.uq import Percentile
 
 __all__ = ["BEYOND", "ascii_text", "render_assess", "render_calibration", "render_epistemic", "render_rank",
@@ -595,3 +596,50 @@ def render_epistemic(e: EpistemicAssessment) -> str:
         lines.append(f"    {name:<40}{src2:8.3f}{rho:+8.2f}")
     lines += [f"Note: {n}" for n in r.notes]
     return "\n".join(lines)
+
+
+def render_study(r: StudyResult, written: list[str] | None = None) -> str:
+    """A study: P(overrun) per case, the paired comparisons and the yearly risk."""
+    s = r.settings
+    lines = [
+        f"landrisk {__version__} - study {r.name} ({r.source})",
+        f"Base scenario: {r.base.name} ({r.base.source})" if r.base else "",
+        f"{len(r.cases)} cases, {s.samples:,} Monte Carlo samples each, seed {s.seed}, method {s.method} "
+        f"(auto: Monte Carlo with >= {s.min_events} overruns, else subset simulation); {r.engine}, "
+        f"{r.workers} worker(s); {r.computed} computed, {r.reused} from the cache, {r.seconds:.1f} s",
+        "",
+        f"{'case':<44} {'method':<7} {'P(overrun) [95 % interval]':<32} {'CoV':>6} {'p50 m':>7} "
+        f"{'p99 m':>7}",
+    ]
+    for c in r.cases:
+        pct = {p.p: p.value for p in c.percentiles}
+        p50, p99 = pct.get(50.0), pct.get(99.0)
+        prob = f"< {c.ci[1]:.2e} (none seen)" if c.upper_bound_only else \
+            f"{c.p_overrun:.2e} [{c.ci[0]:.2e}, {c.ci[1]:.2e}]"
+        cov = f"{100 * c.cov:.0f} %" if c.cov is not None else "-"
+        lines.append(f"{c.name[:44]:<44} {c.method:<7} {prob:<32} {cov:>6} "
+                     f"{p50 if p50 is None else round(p50):>7} {p99 if p99 is None else round(p99):>7}")
+    if r.comparisons:
+        lines += ["", "Comparisons on common random numbers (the same input samples for both cases):"]
+    for cmp in r.comparisons:
+        p = cmp.paired
+        ratio = "ratio - (no overrun seen in one case)" if p.ratio is None or p.ratio_ci is None else \
+            f"ratio {p.ratio:.3f} [{p.ratio_ci[0]:.3f}, {p.ratio_ci[1]:.3f}]"
+        vr = f"{p.variance_reduction:.1f}x" if p.variance_reduction else "-"
+        lines.append(f"  {cmp.alternative} vs {cmp.baseline}: difference {p.difference:+.2e} "
+                     f"[{p.difference_ci[0]:+.2e}, {p.difference_ci[1]:+.2e}], {ratio}; variance "
+                     f"{vr} smaller than two independent runs")
+    e = r.exposure
+    if e is not None:
+        y = e.yearly
+        mean = f"{y.mean_years_between:.3g}" if y.mean_years_between is not None else "no overrun expected"
+        lines += ["", f"Yearly risk at {e.exposure.landings_per_year:,.0f} landings a year ({e.basis}):",
+                  f"  expected overruns per year {y.overruns_per_year:.3g} [{y.overruns_per_year_ci[0]:.3g}, "
+                  f"{y.overruns_per_year_ci[1]:.3g}]; P(at least one a year) {y.p_at_least_one:.3g}; "
+                  f"mean years between overruns {mean} (Poisson, common practice, no source)"]
+        if e.target_per_year is not None:
+            lines.append(f"  target level of safety {e.target_per_year:.3g} overruns per year: "
+                         f"{e.target_status}")
+        lines += [f"  note: {n}" for n in e.notes]
+    messages = [f"{c.name}: {m}" for c in r.cases for m in c.messages]
+    return _closing(lines, messages, written)

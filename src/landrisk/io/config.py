@@ -91,18 +91,25 @@ def load_study(
 
 
 def parse_study(
-    text: str, source: str = "<text>", overrides: Iterable[str] = (), base_dir: Path | None = None
+    text: str, source: str = "<text>", overrides: Iterable[str] = (), base_dir: Path | None = None,
+    assign: Mapping[tuple[str, ...], Any] | None = None,
 ) -> tuple[Scenario, UncertainSet]:
     """The Scenario and its UncertainSet from TOML ``text``.
 
     ``--set`` on an uncertain key fixes it at the value given: its distribution is dropped and the key
-    is listed in ``UncertainSet.fixed``.
+    is listed in ``UncertainSet.fixed``. ``assign`` sets values of the parsed file before it is checked:
+    a path of table names -> value, e.g. ``("uncertain", "runway.braking_mu", "mode") -> 0.25``.
     """
     raw = _toml(text.removeprefix("\ufeff"), source)
     try:
         _check_tree(raw, "")
     except ConfigError as exc:
         raise exc.with_file(source) from None
+    for path, value in (assign or {}).items():
+        try:
+            _assign_path(raw, path, value)
+        except ConfigError as exc:
+            raise exc.with_file(source) from None
     overrides = tuple(overrides)
     fixed = set()
     for item in overrides:
@@ -244,6 +251,16 @@ def _assign(raw: dict[str, Any], dotted: str, value: Any) -> None:
             raise ConfigError("is not a table", key=p, value=child)
         node = child
     node[parts[-1]] = value
+
+
+def _assign_path(raw: dict[str, Any], path: tuple[str, ...], value: Any) -> None:
+    node = raw
+    for p in path[:-1]:
+        child = node.setdefault(p, {})
+        if not isinstance(child, dict):
+            raise ConfigError("is not a table", key=".".join(path), value=child)
+        node = child
+    node[path[-1]] = value
 
 
 def _suggest(name: str, choices: Iterable[str]) -> str:

@@ -45,6 +45,10 @@ class Scenario:
             raise ValueError(f"scenario lacks keys: {sorted(missing)}")
         object.__setattr__(self, "values", MappingProxyType(dict(self.values)))
 
+    def __reduce__(self) -> tuple[Any, ...]:
+        """Pickled as its plain values (for process pools and distributed workers)."""
+        return (Scenario, (dict(self.values), self.source, self.text, self.overrides))
+
     @property
     def name(self) -> str:
         """The scenario's short name."""
