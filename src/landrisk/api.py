@@ -16,6 +16,7 @@ Each function is a few lines over the layers below: :mod:`landrisk.io` reads sce
 
 from __future__ import annotations
 
+import dataclasses
 import warnings
 from collections.abc import Callable, Iterable, Mapping
 from pathlib import Path
@@ -79,6 +80,7 @@ __all__ = [
     "write_assessment",
     "write_ranking",
     "write_rare",
+    "write_report",
     "write_starter",
 ]
 
@@ -143,6 +145,15 @@ def write_starter(path: str | Path, force: bool = False) -> Path:
     return write_text_new(Path(path), header + demo_text(), force=force)
 
 
+def write_report(folder: str | Path, out: str | Path | None = None, *, pdf: bool = False,
+                 force: bool = False) -> list[Path]:
+    """Write the review document of a results folder: ``report.html`` (or ``out``) and with ``pdf`` the
+    PDF beside it, printed by headless Chromium. See :mod:`landrisk.document`."""
+    from landrisk.document import write_report as _write_report
+
+    return _write_report(folder, out, pdf=pdf, force=force)
+
+
 def _warn_fixed(uncertain: UncertainSet) -> None:
     for key in uncertain.fixed:
         warnings.warn(f"{key} is fixed by --set; its distribution is not used", LandriskWarning,
@@ -184,7 +195,7 @@ def rank(
     """Rank the uncertain inputs by Sobol indices (polynomial chaos or Monte Carlo); see studies.rank."""
     _warn_fixed(uncertain)
     settings = RankSettings(method=method, calls=calls, order=order, seed=seed, mc_check=mc_check)
-    return _rank(scenario, uncertain.problem(), settings)
+    return dataclasses.replace(_rank(scenario, uncertain.problem(), settings), record=uncertain.record())
 
 
 def rare(
@@ -204,4 +215,5 @@ def rare(
     """
     _warn_fixed(uncertain)
     settings = RareSettings(method=method, seed=seed, target_cov=target_cov, risk_curve=risk_curve, **options)
-    return _rare_assess(scenario, uncertain.problem(), settings)
+    result = _rare_assess(scenario, uncertain.problem(), settings)
+    return dataclasses.replace(result, record=uncertain.record())

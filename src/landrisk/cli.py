@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import shlex
 import sys
 import warnings
 from collections.abc import Callable
@@ -55,7 +56,37 @@ _set_option = click.option(
 _config_argument = click.argument("config", required=False, type=click.Path(dir_okay=False))
 
 
-@click.group(help=f"""landrisk: how likely is a landing to overrun the runway, and why.
+class _Group(click.Group):
+    """The root group: it keeps the arguments it was given, for the provenance of files written."""
+
+    def parse_args(self, ctx: click.Context, args: list[str]) -> list[str]:
+        ctx.meta["landrisk.argv"] = list(args)
+        return super().parse_args(ctx, args)
+
+
+def _command_line() -> str:
+    """The command line of this run, ``landrisk assess --out run``, quoted for a POSIX shell."""
+    ctx = click.get_current_context(silent=True)
+    argv = ctx.meta.get("landrisk.argv", sys.argv[1:]) if ctx is not None else sys.argv[1:]
+    return shlex.join(["landrisk", *argv])
+
+
+_report_option = click.option(
+    "--report", "with_report", is_flag=True,
+    help="With --out: also write report.html, one self-contained review document of the results "
+         "(see landrisk report).")
+
+
+def _write_report(out_dir: str | None, with_report: bool, written: list[str] | None, force: bool) -> None:
+    """The review document of ``out_dir``, its path added to ``written``."""
+    if not with_report or out_dir is None or written is None:
+        return
+    from landrisk import api
+
+    written += [str(p) for p in api.write_report(out_dir, force=force)]
+
+
+@click.group(cls=_Group, help=f"""landrisk: how likely is a landing to overrun the runway, and why.
 
 Every command runs on the embedded, invented demo scenario when no CONFIG file is given.
 
@@ -125,10 +156,11 @@ class _ProgressBar:
 @click.option("--force", is_flag=True, help="Replace existing output files.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of the summary.")
 @click.option("--quiet", is_flag=True, help="No progress bar.")
+@_report_option
 @_reported
 def assess(config: str | None, samples: int, seed: int, sampler: str, method: str,
            overrides: tuple[str, ...], out_dir: str | None, save_samples: bool, force: bool, as_json: bool,
-           quiet: bool) -> None:
+           quiet: bool, with_report: bool) -> None:
     """Probability of an overrun and percentile landing distances, by Monte Carlo.
 
     Samples the scenario's uncertain inputs ([uncertain."<key>"] tables), solves every landing, and
@@ -143,10 +175,14 @@ def assess(config: str | None, samples: int, seed: int, sampler: str, method: st
 
     if save_samples and not out_dir:
         raise click.UsageError("--save-samples needs --out DIR")
+    if with_report and not out_dir:
+        raise click.UsageError("--report needs --out DIR")
     scenario, uncertain = api.load_study(config, overrides)
     if method != "mc":
         rare = api.rare(scenario, uncertain, method=method, seed=seed)
-        written = [str(p) for p in api.write_rare(rare, out_dir, force=force)] if out_dir else None
+        written = ([str(p) for p in api.write_rare(rare, out_dir, force=force, command=_command_line())]
+                   if out_dir else None)
+        _write_report(out_dir, with_report, written, force)
         if as_json:
             click.echo(json.dumps(api.rare_record(rare), indent=2, default=str))
         else:
@@ -158,7 +194,9 @@ def assess(config: str | None, samples: int, seed: int, sampler: str, method: st
                             keep_samples=save_samples, progress=bar)
     finally:
         bar.close()
-    written = [str(p) for p in api.write_assessment(result, out_dir, force=force)] if out_dir else None
+    written = ([str(p) for p in api.write_assessment(result, out_dir, force=force, command=_command_line())]
+               if out_dir else None)
+    _write_report(out_dir, with_report, written, force)
     if as_json:
         click.echo(json.dumps({k: v for k, v in api.assessment_record(result).items()
                                if k != "scenario_text"}, indent=2, default=str))
@@ -194,9 +232,11 @@ def _order(value: str) -> int | None:
               help="Write ranking.json, indices.csv and the index and tornado figures to this folder.")
 @click.option("--force", is_flag=True, help="Replace existing output files.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of the table.")
+@_report_option
 @_reported
 def rank(config: str | None, method: str, order: str, calls: int | None, seed: int, mc_check: int,
-         overrides: tuple[str, ...], out_dir: str | None, force: bool, as_json: bool) -> None:
+         overrides: tuple[str, ...], out_dir: str | None, force: bool, as_json: bool,
+         with_report: bool) -> None:
     """Rank the uncertain inputs by their influence on the landing distance and on the overrun.
 
     Prints first-order and total Sobol indices of the total distance for every uncertain input, the
@@ -205,15 +245,41 @@ def rank(config: str | None, method: str, order: str, calls: int | None, seed: i
     """
     from landrisk import api, report
 
+    if with_report and not out_dir:
+        raise click.UsageError("--report needs --out DIR")
     scenario, uncertain = api.load_study(config, overrides)
     result = api.rank(scenario, uncertain, method=method, calls=calls, order=_order(order), seed=seed,
                       mc_check=mc_check if method == "pce" else 0)
-    written = [str(p) for p in api.write_ranking(result, out_dir, force=force)] if out_dir else None
+    written = ([str(p) for p in api.write_ranking(result, out_dir, force=force, command=_command_line())]
+               if out_dir else None)
+    _write_report(out_dir, with_report, written, force)
     if as_json:
         click.echo(json.dumps({k: v for k, v in api.ranking_record(result).items() if k != "scenario_text"},
                               indent=2, default=str))
     else:
         click.echo(report.render_rank(result, written))
+
+
+@main.command("report", epilog=_HELP_CAUTION)
+@click.argument("results_dir", type=click.Path(file_okay=False))
+@click.option("--out", "out_file", type=click.Path(dir_okay=False),
+              help="The HTML file to write [default: report.html in RESULTS_DIR].")
+@click.option("--pdf", is_flag=True, help="Also print it to PDF (same name, .pdf) with headless Chromium.")
+@click.option("--force", is_flag=True, help="Replace existing report files.")
+@_reported
+def report_command(results_dir: str, out_file: str | None, pdf: bool, force: bool) -> None:
+    """Write one self-contained review document (HTML, optionally PDF) of a results folder.
+
+    RESULTS_DIR is a folder written by assess --out (also with a rare-event --method) or rank --out.
+    The document puts the caution first, then what was asked, the answer with its intervals, every input
+    with its distribution and source, the model and its limits, the ranking, the checks and the
+    provenance; its figures are embedded, so it needs no other file and no network.
+    """
+    from landrisk import api
+
+    for path in api.write_report(results_dir, out_file, pdf=pdf, force=force):
+        click.echo(f"wrote {path}")
+    click.echo(CAUTION)
 
 
 @main.command(epilog=_HELP_CAUTION)

@@ -3,6 +3,7 @@
 from landrisk.export.records import (
     assessment_record,
     input_units,
+    inputs_hash,
     provenance,
     ranking_record,
     rare_record,
@@ -21,6 +22,7 @@ from landrisk.export.writers import write_assessment, write_ranking, write_rare,
 __all__ = [
     "assessment_record",
     "input_units",
+    "inputs_hash",
     "landings_table",
     "percentile_table",
     "provenance",

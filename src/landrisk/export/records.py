@@ -7,6 +7,9 @@ so that a file written from it can be traced back to what produced it.
 
 from __future__ import annotations
 
+import hashlib
+import json
+from collections.abc import Mapping
 from typing import Any
 
 import numpy as np
@@ -20,6 +23,7 @@ from landrisk.uq import Percentile
 __all__ = [
     "assessment_record",
     "input_units",
+    "inputs_hash",
     "provenance",
     "ranking_record",
     "rare_record",
@@ -33,6 +37,17 @@ def provenance(scenario: Scenario, **run: Any) -> dict[str, Any]:
     then the run's own settings (``seed=``, ``sampler=``, ``samples=``, ``method=``) in that order."""
     return {"tool": "landrisk", "version": __version__, "caution": CAUTION, "scenario": scenario.name,
             "source": scenario.source, "overrides": list(scenario.overrides), **run}
+
+
+def inputs_hash(inputs: Mapping[str, Any], uncertain: Mapping[str, Any] | None) -> str:
+    """SHA-256 of the resolved inputs (scenario values and the uncertain tables as recorded), hex.
+
+    Computed on the canonical JSON of what a summary file holds (keys sorted), so that the same hash
+    can be recomputed from ``summary.json``'s ``inputs`` and ``uncertain`` entries.
+    """
+    data = json.loads(json.dumps({"inputs": dict(inputs), "uncertain": dict(uncertain or {})}, default=str))
+    text = json.dumps(data, sort_keys=True, separators=(",", ":"), ensure_ascii=True)
+    return hashlib.sha256(text.encode("ascii")).hexdigest()
 
 
 def input_units() -> dict[str, str]:
@@ -186,7 +201,8 @@ def _ranking_figures(r: Ranking) -> dict[str, Any]:
 def ranking_record(r: Ranking) -> dict[str, Any]:
     """Everything about a ranking, JSON-ready: provenance, results, resolved inputs."""
     return {**provenance(r.scenario, seed=r.settings.seed, method=r.method), **_ranking_figures(r),
-            "inputs_used": dict(r.scenario.values), "scenario_text": r.scenario.text}
+            "inputs_used": dict(r.scenario.values), "input_units": input_units(), "uncertain": dict(r.record),
+            "scenario_text": r.scenario.text}
 
 
 def _rare_figures(r: RareAssessment) -> dict[str, Any]:
@@ -234,4 +250,4 @@ def rare_record(r: RareAssessment) -> dict[str, Any]:
     assess_keys = {"samples": rec["model_calls"], "sampler": "standard normal space, seeded",
                    "overruns": None, "percentiles_m": {}, "mean_m": None, "sd_m": None}
     return {**provenance(r.scenario), **assess_keys, **rec, "inputs": dict(r.scenario.values),
-            "input_units": input_units()}
+            "input_units": input_units(), "uncertain": dict(r.record)}

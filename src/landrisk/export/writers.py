@@ -10,10 +10,11 @@ from __future__ import annotations
 
 import json
 from collections.abc import Callable, Mapping
+from datetime import UTC, datetime
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-from landrisk.export.records import assessment_record, ranking_record, rare_record
+from landrisk.export.records import assessment_record, inputs_hash, ranking_record, rare_record
 from landrisk.export.tables import percentile_table, rank_table, risk_curve_table, samples_table
 from landrisk.io.output import comment_header, write_files
 from landrisk.studies import Assessment, Ranking, RareAssessment
@@ -25,7 +26,7 @@ __all__ = ["write_assessment", "write_ranking", "write_rare", "write_result_set"
 
 #: Keys of a record that make up the provenance written into every CSV header and figure.
 _PROVENANCE = ("tool", "version", "caution", "scenario", "source", "overrides", "seed", "sampler", "samples",
-               "method")
+               "method", "created_utc", "inputs_sha256", "command")
 
 
 def _file_key(name: str) -> str:
@@ -43,6 +44,7 @@ def write_result_set(
     *,
     inputs: Mapping[str, Any],
     force: bool = False,
+    command: str | None = None,
 ) -> list[Path]:
     """Write ``summary_name`` (the JSON ``record``), each table as CSV and each figure as PNG and SVG.
 
@@ -61,7 +63,14 @@ def write_result_set(
         Figure stem -> function of ``result`` returning a matplotlib figure.
     inputs : mapping
         The resolved scenario values, recorded with the provenance.
+    command : str, optional
+        The command line that produced the result, recorded with the provenance.
+
+    The record gains ``created_utc`` (ISO 8601, UTC, to the second), ``inputs_sha256`` (see
+    :func:`landrisk.export.inputs_hash`) and ``command`` (``None`` when not given).
     """
+    record = {**record, "created_utc": datetime.now(UTC).replace(microsecond=0).isoformat(),
+              "inputs_sha256": inputs_hash(inputs, record.get("uncertain")), "command": command}
     meta = {k: record[k] for k in _PROVENANCE if k in record}
     head = {**meta, "inputs": dict(inputs)}
     if "uncertain" in record:
@@ -82,7 +91,7 @@ def write_result_set(
 
 
 def write_assessment(a: Assessment, folder: str | Path, *, force: bool = False,
-                     figures: bool = True) -> list[Path]:
+                     figures: bool = True, command: str | None = None) -> list[Path]:
     """summary.json, percentiles.csv, the figures (PNG and SVG) and, if kept, samples.csv."""
     tables = {"percentiles.csv": percentile_table(a)}
     if a.inputs is not None:
@@ -93,19 +102,21 @@ def write_assessment(a: Assessment, folder: str | Path, *, force: bool = False,
 
         figs = dict(FIGURES)
     return write_result_set(folder, "summary.json", assessment_record(a), tables, figs, a,
-                            inputs=a.scenario.values, force=force)
+                            inputs=a.scenario.values, force=force, command=command)
 
 
-def write_ranking(r: Ranking, folder: str | Path, *, force: bool = False) -> list[Path]:
+def write_ranking(r: Ranking, folder: str | Path, *, force: bool = False,
+                  command: str | None = None) -> list[Path]:
     """ranking.json, indices.csv and the index and tornado figures (and the surrogate's exceedance)."""
     from landrisk.plotting import RANK_FIGURES
 
     figs = {k: f for k, f in RANK_FIGURES.items() if r.method == "pce" or k != "surrogate-exceedance"}
     return write_result_set(folder, "ranking.json", ranking_record(r), {"indices.csv": rank_table(r)}, figs,
-                            r, inputs=r.scenario.values, force=force)
+                            r, inputs=r.scenario.values, force=force, command=command)
 
 
-def write_rare(r: RareAssessment, folder: str | Path, *, force: bool = False) -> list[Path]:
+def write_rare(r: RareAssessment, folder: str | Path, *, force: bool = False,
+               command: str | None = None) -> list[Path]:
     """summary.json and, with a risk curve, risk-curve.csv and its figure (PNG and SVG)."""
     tables, figs = {}, {}
     if r.risk_curve is not None:
@@ -114,4 +125,4 @@ def write_rare(r: RareAssessment, folder: str | Path, *, force: bool = False) ->
         tables["risk-curve.csv"] = risk_curve_table(r)
         figs["risk-curve"] = risk_curve_figure
     return write_result_set(folder, "summary.json", rare_record(r), tables, figs, r,
-                            inputs=r.scenario.values, force=force)
+                            inputs=r.scenario.values, force=force, command=command)

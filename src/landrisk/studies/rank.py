@@ -18,8 +18,9 @@ indices of the overrun indicator 1{total > LDA} by Monte Carlo on the real solve
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -167,6 +168,7 @@ class Ranking:
     warnings: list[str] = field(default_factory=list)
     form_importance: dict[str, float] = field(default_factory=dict)  # alpha^2 at the design point
     form_beta: float | None = None
+    record: Mapping[str, Any] = field(default_factory=dict)  # how the inputs were specified
 
     @property
     def reliable(self) -> bool:

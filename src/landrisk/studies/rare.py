@@ -14,6 +14,7 @@ intervals do not overlap it warns.
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -115,6 +116,7 @@ class RareAssessment:
     messages: list[str] = field(default_factory=list)
     cross_check: CrossCheck | None = None
     risk_curve: RiskCurve | None = None
+    record: Mapping[str, Any] = field(default_factory=dict)  # how the inputs were specified
 
 
 def rare_assess(scenario: Scenario, problem: Problem, settings: RareSettings | None = None) -> RareAssessment:
