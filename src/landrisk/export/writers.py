@@ -26,7 +26,9 @@ __all__ = ["write_assessment", "write_ranking", "write_rare", "write_result_set"
 
 #: Keys of a record that make up the provenance written into every CSV header and figure.
 _PROVENANCE = ("tool", "version", "caution", "scenario", "source", "overrides", "seed", "sampler", "samples",
-               "method", "created_utc", "inputs_sha256", "command")
+               "method")
+#: Keys of a record written after the inputs in CSV headers and figure metadata: when and how it was made.
+_RUN = ("created_utc", "inputs_sha256", "command")
 
 
 def _file_key(name: str) -> str:
@@ -72,15 +74,17 @@ def write_result_set(
     record = {**record, "created_utc": datetime.now(UTC).replace(microsecond=0).isoformat(),
               "inputs_sha256": inputs_hash(inputs, record.get("uncertain")), "command": command}
     meta = {k: record[k] for k in _PROVENANCE if k in record}
+    run = {k: record[k] for k in _RUN}
     head = {**meta, "inputs": dict(inputs)}
     if "uncertain" in record:
         head["uncertain"] = record["uncertain"]
+    head.update(run)
     files: dict[str, str | bytes] = {name: comment_header(head) + frame.to_csv(index=False)
                                      for name, frame in tables.items()}
     if figures:
         from landrisk.plotting import figure_bytes
 
-        fig_meta = {**meta, "inputs": dict(inputs)}
+        fig_meta = {**meta, "inputs": dict(inputs), **run}
         for stem, make in figures.items():
             for fmt in ("png", "svg"):
                 files[f"{stem}.{fmt}"] = figure_bytes(make(result), fmt, fig_meta)
