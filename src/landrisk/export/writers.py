@@ -86,8 +86,9 @@ def write_result_set(
 
         fig_meta = {**meta, "inputs": dict(inputs), **run}
         for stem, make in figures.items():
+            fig = make(result)  # drawn once, saved twice
             for fmt in ("png", "svg"):
-                files[f"{stem}.{fmt}"] = figure_bytes(make(result), fmt, fig_meta)
+                files[f"{stem}.{fmt}"] = figure_bytes(fig, fmt, fig_meta, close=fmt == "svg")
     names = [summary_name, *files]
     record = {**record, "files": {_file_key(n): n for n in names}}
     files = {summary_name: json.dumps(record, indent=2, default=str) + "\n", **files}
