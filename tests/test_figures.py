@@ -41,9 +41,14 @@ def rare() -> Any:
         method="form", subset_samples=300, subset_replicates=2, cross_check=False))
 
 
-def figures_of(results: dict[str, Any]) -> list[tuple[str, Any]]:
-    out = [(stem, make(results["assessment"])) for stem, make in plotting.FIGURES.items()]
-    return out + [(stem, make(results["ranking"])) for stem, make in plotting.RANK_FIGURES.items()]
+@pytest.fixture(scope="module")
+def figures(results: dict[str, Any]) -> Any:
+    """Every figure of an assessment and of a ranking, made once (stem -> figure), closed at the end."""
+    out = {stem: make(results["assessment"]) for stem, make in plotting.FIGURES.items()}
+    out |= {stem: make(results["ranking"]) for stem, make in plotting.RANK_FIGURES.items()}
+    yield out
+    for fig in out.values():
+        matplotlib.pyplot.close(fig)
 
 
 def drawn_texts(fig: Any) -> list[Text]:
@@ -82,10 +87,9 @@ def caution_box(fig: Any) -> AnchoredText:
     return boxes[0]
 
 
-def test_no_text_is_cut_off(results: dict[str, Any]) -> None:
-    for stem, fig in figures_of(results):
+def test_no_text_is_cut_off(figures: dict[str, Any]) -> None:
+    for stem, fig in figures.items():
         assert outside(fig) == [], stem
-        matplotlib.pyplot.close(fig)
 
 
 @pytest.mark.slow
@@ -111,18 +115,19 @@ def test_the_check_catches_a_cut_off_title() -> None:
 def test_png_is_300_dpi_and_svg_is_written(results: dict[str, Any]) -> None:
     from PIL import Image
 
-    fig = plotting.exceedance_figure(results["assessment"])
+    fig = plotting.convergence_figure(results["plain"])
     png = plotting.figure_bytes(fig, "png", {"seed": 1}, close=False)
     svg = plotting.figure_bytes(fig, "svg", {"seed": 1})
     image = Image.open(io.BytesIO(png))
     assert image.info["dpi"] == pytest.approx((300, 300), abs=0.01)
     # The tight bounding box only trims margins: at least 80 % of the stated size in each direction.
-    assert image.size[0] >= 0.8 * 8 * 300 and image.size[1] >= 0.8 * 5.2 * 300
+    assert image.size[0] >= 0.8 * 9 * 300 and image.size[1] >= 0.8 * 4.6 * 300
     assert svg.lstrip().startswith(b"<?xml") and b"<svg" in svg
 
 
-def test_caution_and_invented_data_inside_the_plot_area(results: dict[str, Any]) -> None:
-    for stem, fig in figures_of(results):
+def test_caution_and_invented_data_inside_the_plot_area(results: dict[str, Any],
+                                                         figures: dict[str, Any]) -> None:
+    for stem, fig in figures.items():
         box = caution_box(fig)
         text = " ".join(box.txt.get_text().split())
         assert CAUTION in text and text.startswith("INVENTED DATA"), stem
@@ -132,7 +137,6 @@ def test_caution_and_invented_data_inside_the_plot_area(results: dict[str, Any])
         assert axes.x0 <= inner.x0 and inner.x1 <= axes.x1 and axes.y0 <= inner.y0 and inner.y1 <= axes.y1
         size = box.txt._text.get_fontsize()
         assert size >= 6.5, stem  # not the 6 pt footer
-        matplotlib.pyplot.close(fig)
     fig = plotting.exceedance_figure(results["plain"])  # a scenario whose description claims real data
     text = " ".join(caution_box(fig).txt.get_text().split())
     assert text == CAUTION and "INVENTED" not in text
@@ -144,9 +148,8 @@ def dashes(line: Any) -> str:
     return str(line._unscaled_dash_pattern)
 
 
-def test_lines_are_distinguishable_and_in_the_legend(results: dict[str, Any]) -> None:
-    fig = plotting.exceedance_figure(results["assessment"])
-    ax = fig.axes[0]
+def test_lines_are_distinguishable_and_in_the_legend(figures: dict[str, Any]) -> None:
+    ax = figures["exceedance"].axes[0]
     lines = [ln for ln in ax.get_lines() if not ln.get_label().startswith("_")]
     styles = [(matplotlib.colors.to_hex(ln.get_color()), dashes(ln), ln.get_linewidth())
               for ln in lines]
@@ -158,30 +161,24 @@ def test_lines_are_distinguishable_and_in_the_legend(results: dict[str, Any]) ->
     assert all(c in plotting.OKABE_ITO for c in (ln.get_color() for ln in comparisons))
     legend = {t.get_text() for t in ax.get_legend().get_texts()}
     assert {ln.get_label() for ln in lines} <= legend
-    matplotlib.pyplot.close(fig)
 
 
-def test_distance_axes_mark_the_lda_and_the_safety_area(results: dict[str, Any]) -> None:
+def test_distance_axes_mark_the_lda_and_the_safety_area(results: dict[str, Any],
+                                                        figures: dict[str, Any]) -> None:
     a = results["assessment"]
     lda, end = a.lda_m, a.lda_m + a.resa_length_m
-    for stem in ("exceedance", "histogram"):
-        fig = plotting.FIGURES[stem](a)
-        ax = fig.axes[0]
+    for stem in ("exceedance", "histogram", "surrogate-exceedance"):
+        ax = figures[stem].axes[0]
         marks = {ln.get_label().split()[0]: ln.get_xdata()[0] for ln in ax.get_lines()}
         assert marks["LDA"] == lda and marks["end"] == end, stem
         lo, hi = ax.get_xlim()
         assert lo < lda < end < hi, stem
-        matplotlib.pyplot.close(fig)
-    fig = plotting.surrogate_exceedance_figure(results["ranking"])
-    marks = {ln.get_label().split()[0]: ln.get_xdata()[0] for ln in fig.axes[0].get_lines()}
-    assert marks["LDA"] == lda and marks["end"] == end
-    matplotlib.pyplot.close(fig)
 
 
-def test_histogram_keeps_the_tail_past_the_lda_visible(results: dict[str, Any]) -> None:
+def test_histogram_keeps_the_tail_past_the_lda_visible(results: dict[str, Any],
+                                                       figures: dict[str, Any]) -> None:
     a = results["assessment"]
-    fig = plotting.histogram_figure(a)
-    ax = fig.axes[0]
+    ax = figures["histogram"].axes[0]
     assert ax.get_yscale() == "log"
     beyond = a.outputs["total_m"] > a.lda_m
     assert beyond.sum() > 0  # the demo at 20 000 samples has overruns (seed 1: 6)
@@ -189,18 +186,13 @@ def test_histogram_keeps_the_tail_past_the_lda_visible(results: dict[str, Any]) 
     heights = [p.get_height() for p in ax.patches
                if p.get_x() + p.get_width() > a.lda_m and p.get_height() > 0]
     assert heights and min(heights) > ax.get_ylim()[0]
-    matplotlib.pyplot.close(fig)
 
 
-def test_intervals_are_bands(results: dict[str, Any]) -> None:
+def test_intervals_are_bands(results: dict[str, Any], figures: dict[str, Any]) -> None:
     from matplotlib.collections import PolyCollection
 
     for stem in ("exceedance", "convergence"):
-        fig = plotting.FIGURES[stem](results["assessment"])
-        bands = [c for c in fig.axes[0].collections if isinstance(c, PolyCollection)]
+        bands = [c for c in figures[stem].axes[0].collections if isinstance(c, PolyCollection)]
         assert bands and "interval" in bands[0].get_label(), stem
-        matplotlib.pyplot.close(fig)
-    fig = plotting.convergence_figure(results["assessment"])
     p = results["assessment"].convergence["p_event"]
-    assert fig.axes[0].get_yscale() == ("log" if np.any(p > 0) else "linear")
-    matplotlib.pyplot.close(fig)
+    assert figures["convergence"].axes[0].get_yscale() == ("log" if np.any(p > 0) else "linear")
