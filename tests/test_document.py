@@ -84,8 +84,8 @@ def text_of(el: Any) -> str:
 
 
 def words_of(el: Any) -> str:
-    """The text with a space between elements (table cells)."""
-    return " ".join(" ".join(el.itertext()).split())
+    """The text of a table, a space between its cells."""
+    return " ".join(text_of(cell) for cell in el.iter() if cell.tag in ("td", "th"))
 
 
 def lookup(summary: Any, path: str) -> Any:

@@ -84,7 +84,8 @@ def styled(make: F) -> F:
         import matplotlib
 
         _pyplot()
-        with matplotlib.rc_context(_style()):
+        style: Any = _style()
+        with matplotlib.rc_context(style):
             return make(*args, **kwargs)
 
     return wrapper  # type: ignore[return-value]
@@ -101,11 +102,11 @@ def runway_marks(ax: Axes, lda_m: float, resa_m: float | None) -> None:
                    label=f"end of the safety area, LDA + {resa_m:.0f} m = {end:.0f} m")
 
 
-def _caution_box(ax: Axes, scenario: Any, loc: str) -> None:
+def _caution_box(fig: Figure, ax: Axes, scenario: Any, loc: str) -> None:
     """The caution (and "INVENTED DATA") inside the plot area, in a framed box at ``loc``."""
     from matplotlib.offsetbox import AnchoredText
 
-    width_in = ax.get_position().width * ax.figure.get_figwidth()
+    width_in = ax.get_position().width * fig.get_figwidth()
     chars = min(66, max(36, int(width_in * 0.85 * 72 / 3.4)))  # about 3.4 pt per character at 6.5 pt
     lines = textwrap.wrap(CAUTION, chars)
     if invented(scenario.values.get("scenario.description")):
@@ -121,10 +122,12 @@ def _caution_box(ax: Axes, scenario: Any, loc: str) -> None:
 
 def _fit_titles(fig: Figure) -> None:
     """Wrap the suptitle and each axes title that is wider than the figure or its axes."""
-    renderer = fig.canvas.get_renderer()
+    canvas: Any = fig.canvas
+    renderer = canvas.get_renderer()
     texts = [(ax.title, ax.get_window_extent(renderer).width) for ax in fig.axes]
-    if fig._suptitle is not None:
-        texts.append((fig._suptitle, fig.bbox.width))
+    suptitle = getattr(fig, "_suptitle", None)
+    if suptitle is not None:
+        texts.append((suptitle, fig.bbox.width))
     for text, room in texts:
         content = text.get_text()
         if not content:
@@ -141,7 +144,7 @@ def _footer(fig: Figure, scenario: Any, run: str, caution_loc: str = "upper righ
     """The last step of every figure: the caution inside an axes (the first unless ``caution_ax``), a
     provenance line under the axes, titles wrapped to fit and a layout that keeps every text inside the
     canvas."""
-    _caution_box(fig.axes[caution_ax], scenario, caution_loc)
+    _caution_box(fig, fig.axes[caution_ax], scenario, caution_loc)
     fig.text(0.005, 0.005, f"landrisk {__version__} | scenario {scenario.name} ({scenario.source}) | {run}",
              fontsize=6, va="bottom", ha="left")
     _fit_titles(fig)

@@ -203,6 +203,14 @@ def _context(rs: ResultSet) -> dict[str, Any]:
     }
 
 
+def _breakable(key: Any) -> Any:
+    """A dotted key with a line-break opportunity after each dot (``aircraft.<wbr>mass``)."""
+    from markupsafe import Markup, escape
+
+    return Markup("<wbr>").join(escape(part) + Markup(".") if i < len(parts) - 1 else escape(part)
+                                for parts in [str(key).split(".")] for i, part in enumerate(parts))
+
+
 def _environment() -> Any:
     from jinja2 import Environment, PackageLoader, StrictUndefined, select_autoescape
 
@@ -211,6 +219,7 @@ def _environment() -> Any:
                       undefined=StrictUndefined, trim_blocks=True, lstrip_blocks=True)
     env.filters["sci"] = lambda x, d=2: "not available" if x is None else f"{float(x):.{d}e}"
     env.filters["g"] = lambda x, d=4: "not available" if x is None else f"{float(x):.{d}g}"
+    env.filters["breakable"] = _breakable
     return env
 
 
