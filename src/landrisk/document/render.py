@@ -114,10 +114,12 @@ def _customary(key: str, value: Any) -> str:
     """The value in a customary second unit (ft, kt, degC, lb), or ''."""
     if isinstance(value, bool) or not isinstance(value, int | float):
         return ""
-    second = {"m": "ft", "m/s": "kt", "K": "degC", "kg": "lb"}.get(KEYS[key].unit if key in KEYS else "")
-    if second is None:
+    unit = KEYS[key].unit if key in KEYS else ""
+    second = {"m": "ft", "m/s": "kt", "K": "degC", "kg": "lb"}.get(unit)
+    if second is None or (unit == "K" and key != "conditions.temperature"):  # a difference stays in K
         return ""
-    return f"{convert(float(value), KEYS[key].unit, second):,.1f} {second}"
+    digits = 0 if second == "lb" else 1
+    return f"{convert(float(value), unit, second):,.{digits}f} {second}"
 
 
 def _show(value: Any) -> str:
