@@ -253,7 +253,12 @@ def figure_bytes(fig: Figure, fmt: str, record: dict[str, Any], *, close: bool =
     buf = io.BytesIO()
     text = json.dumps(record, sort_keys=True, default=str)
     meta = {"Description": text} if fmt == "png" else {"Description": text, "Date": None}
-    fig.savefig(buf, format=fmt, dpi=PNG_DPI, metadata=meta, bbox_inches="tight", pad_inches=0.05)
+    bbox = getattr(fig, "_landrisk_tight_bbox", None)  # one layout pass for both formats
+    if bbox is None:
+        canvas: Any = fig.canvas
+        bbox = fig.get_tightbbox(canvas.get_renderer()).padded(0.05)
+        fig._landrisk_tight_bbox = bbox  # type: ignore[attr-defined]
+    fig.savefig(buf, format=fmt, dpi=PNG_DPI, metadata=meta, bbox_inches=bbox)
     if close:
         plt.close(fig)
     return buf.getvalue()
