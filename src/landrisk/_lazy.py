@@ -3,8 +3,29 @@
 from __future__ import annotations
 
 import importlib
+import sys
+import types
 from collections.abc import Callable, Mapping
 from typing import Any
+
+
+class _Package(types.ModuleType):
+    """A package some of whose functions share their module's name (``studies.rank`` the function, in
+    ``studies/rank.py``): importing the module sets the package's attribute to the module, and this keeps
+    the function there instead, as an eager ``from .rank import rank`` in ``__init__`` would."""
+
+    def __setattr__(self, name: str, value: Any) -> None:
+        kept = self.__dict__.get("_FUNCTIONS_NAMED_LIKE_MODULES", ())
+        if isinstance(value, types.ModuleType) and name in kept:
+            value = getattr(value, name)
+        super().__setattr__(name, value)
+
+
+def keep_functions(package: str, names: tuple[str, ...]) -> None:
+    """Keep the functions ``names`` of ``package`` as its attributes when their modules are imported."""
+    module = sys.modules[package]
+    module.__dict__["_FUNCTIONS_NAMED_LIKE_MODULES"] = names
+    module.__class__ = _Package
 
 
 def lazy_names(package: str, where: Mapping[str, tuple[str, ...]], namespace: dict[str, Any]

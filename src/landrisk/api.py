@@ -16,6 +16,7 @@ Each function is a few lines over the layers below: :mod:`landrisk.io` reads sce
 
 from __future__ import annotations
 
+import dataclasses
 import warnings
 from collections.abc import Callable, Iterable, Mapping
 from pathlib import Path
@@ -91,6 +92,7 @@ __all__ = [
     "write_epistemic",
     "write_ranking",
     "write_rare",
+    "write_report",
     "write_starter",
     "write_study",
 ]
@@ -159,6 +161,15 @@ def write_starter(path: str | Path, force: bool = False) -> Path:
     return write_text_new(Path(path), header + demo_text(), force=force)
 
 
+def write_report(folder: str | Path, out: str | Path | None = None, *, pdf: bool = False,
+                 force: bool = False) -> list[Path]:
+    """Write the review document of a results folder: ``report.html`` (or ``out``) and with ``pdf`` the
+    PDF beside it, printed by headless Chromium. See :mod:`landrisk.document`."""
+    from landrisk.document import write_report as _write_report
+
+    return _write_report(folder, out, pdf=pdf, force=force)
+
+
 def _warn_fixed(uncertain: UncertainSet) -> None:
     for key in uncertain.fixed:
         warnings.warn(f"{key} is fixed by --set; its distribution is not used", LandriskWarning,
@@ -202,6 +213,7 @@ def assess_into(
     samples_format: str = "csv",
     units: str | None = None,
     figures: bool = True,
+    command: str | None = None,
     **options: Any,
 ) -> tuple[Assessment, list[Path]]:
     """:func:`assess` writing its result set into ``folder`` (see :func:`write_assessment`).
@@ -230,7 +242,8 @@ def assess_into(
         finally:
             if stream is not None:
                 stream.close()
-        paths = write_assessment(result, folder, figures=figures, units=units, stage=st, stream=stream)
+        paths = write_assessment(result, folder, figures=figures, units=units, stage=st, stream=stream,
+                                 command=command)
     return result, paths
 
 
@@ -262,7 +275,8 @@ def rank(
 
     _warn_fixed(uncertain)
     settings = RankSettings(method=method, calls=calls, order=order, seed=seed, mc_check=mc_check)
-    return rank_inputs(scenario, uncertain.problem(), settings)
+    ranking = rank_inputs(scenario, uncertain.problem(), settings)
+    return dataclasses.replace(ranking, record=uncertain.record())
 
 
 def rare(
@@ -285,7 +299,8 @@ def rare(
 
     _warn_fixed(uncertain)
     settings = RareSettings(method=method, seed=seed, target_cov=target_cov, risk_curve=risk_curve, **options)
-    return rare_assess(scenario, uncertain.problem(), settings)
+    return dataclasses.replace(rare_assess(scenario, uncertain.problem(), settings),
+                               record=uncertain.record())
 
 
 def calibrate(scenario: Scenario, reference: str | Path) -> Calibration:
@@ -388,9 +403,9 @@ def write_study(r: StudyResult, folder: str | Path, **options: Any) -> list[Path
 def __getattr__(name: str) -> Any:
     # The result and settings classes, re-exported without importing every study up front.
     if name in ("AssessSettings", "Assessment"):
-        import landrisk.studies.assess as module
+        import importlib
 
-        return getattr(module, name)
+        return getattr(importlib.import_module("landrisk.studies.assess"), name)
 
     raise AttributeError(f"module 'landrisk.api' has no attribute {name!r}")
 

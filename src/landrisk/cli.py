@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import shlex
 import sys
 import warnings
 from collections.abc import Callable
@@ -72,7 +73,37 @@ _set_option = click.option(
 _config_argument = click.argument("config", required=False, type=click.Path(dir_okay=False))
 
 
-@click.group(help=f"""landrisk: how likely is a landing to overrun the runway, and why.
+class _Group(click.Group):
+    """The root group: it keeps the arguments it was given, for the provenance of files written."""
+
+    def parse_args(self, ctx: click.Context, args: list[str]) -> list[str]:
+        ctx.meta["landrisk.argv"] = list(args)
+        return super().parse_args(ctx, args)
+
+
+def _command_line() -> str:
+    """The command line of this run, ``landrisk assess --out run``, quoted for a POSIX shell."""
+    ctx = click.get_current_context(silent=True)
+    argv = ctx.meta.get("landrisk.argv", sys.argv[1:]) if ctx is not None else sys.argv[1:]
+    return shlex.join(["landrisk", *argv])
+
+
+_report_option = click.option(
+    "--report", "with_report", is_flag=True,
+    help="With --out: also write report.html, one self-contained review document of the results "
+         "(see landrisk report).")
+
+
+def _write_report(out_dir: str | None, with_report: bool, written: list[str] | None, force: bool) -> None:
+    """The review document of ``out_dir``, its path added to ``written``."""
+    if not with_report or out_dir is None or written is None:
+        return
+    from landrisk import api
+
+    written += [str(p) for p in api.write_report(out_dir, force=force)]
+
+
+@click.group(cls=_Group, help=f"""landrisk: how likely is a landing to overrun the runway, and why.
 
 Every command runs on the embedded, invented demo scenario when no CONFIG file is given.
 
@@ -160,11 +191,12 @@ class _ProgressBar:
 @click.option("--epistemic-method", type=click.Choice(["reweight", "nested"]), default="reweight",
               show_default=True, help="With --epistemic: reweight one inner sample, or a nested loop.")
 @_units_option
+@_report_option
 @_reported
 def assess(config: str | None, samples: int, seed: int, sampler: str, method: str, target_cov: float,
            max_calls: int, subset_samples: int, overrides: tuple[str, ...], out_dir: str | None,
            save_samples: bool, force: bool, as_json: bool, quiet: bool, epistemic: bool, outer: int,
-           epistemic_method: str, samples_format: str, units: str | None) -> None:
+           epistemic_method: str, samples_format: str, units: str | None, with_report: bool) -> None:
     """Probability of an overrun and percentile landing distances, by Monte Carlo.
 
     Samples the scenario's uncertain inputs ([uncertain."<key>"] tables), solves every landing, and
@@ -192,6 +224,8 @@ def assess(config: str | None, samples: int, seed: int, sampler: str, method: st
     if method == "mc" and rare_only:
         raise click.UsageError(f"{', '.join(rare_only)}: for the rare methods only (--method auto, subset, "
                                "importance, form, sorm)")
+    if with_report and not out_dir:
+        raise click.UsageError("--report needs --out DIR")
     scenario, uncertain = api.load_study(config, overrides)
     if epistemic and method != "mc":
         raise click.UsageError("--epistemic works with --method mc (Monte Carlo inner samples)")
@@ -199,8 +233,10 @@ def assess(config: str | None, samples: int, seed: int, sampler: str, method: st
     if method != "mc":
         rare = api.rare(scenario, uncertain, method=method, seed=seed, target_cov=target_cov,
                         max_calls=max_calls, subset_samples=subset_samples)
-        rare_written = ([str(p) for p in api.write_rare(rare, out_dir, force=force, units=shown)]
+        rare_written = ([str(p) for p in api.write_rare(rare, out_dir, force=force, units=shown,
+                                                      command=_command_line())]
                         if out_dir else None)
+        _write_report(out_dir, with_report, rare_written, force)
         if as_json:
             _echo(api.dumps(api.rare_record(rare)))
         else:
@@ -213,7 +249,7 @@ def assess(config: str | None, samples: int, seed: int, sampler: str, method: st
         if out_dir:
             result, paths = api.assess_into(scenario, uncertain, out_dir, force=force,
                                             save_samples=save_samples, samples_format=samples_format,
-                                            units=shown, **options)
+                                            units=shown, command=_command_line(), **options)
             written = [str(p) for p in paths]
         else:
             result = api.assess(scenario, uncertain, **options)
@@ -223,6 +259,7 @@ def assess(config: str | None, samples: int, seed: int, sampler: str, method: st
           if epistemic else None)
     if ep is not None and out_dir and written is not None:
         written += [str(p) for p in api.write_epistemic(ep, out_dir, force=True)]
+    _write_report(out_dir, with_report, written, force)
     if as_json:
         record = {k: v for k, v in api.assessment_record(result).items() if k != "scenario_text"}
         if ep is not None:
@@ -263,9 +300,11 @@ def _order(value: str) -> int | None:
                    "overrun-profile figures to this folder.")
 @click.option("--force", is_flag=True, help="Replace existing output files.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of the table.")
+@_report_option
 @_reported
 def rank(config: str | None, method: str, order: str, calls: int | None, seed: int, mc_check: int,
-         overrides: tuple[str, ...], out_dir: str | None, force: bool, as_json: bool) -> None:
+         overrides: tuple[str, ...], out_dir: str | None, force: bool, as_json: bool,
+         with_report: bool) -> None:
     """Rank the uncertain inputs by their influence on the landing distance and on the overrun.
 
     Prints first-order and total Sobol indices of the total distance for every uncertain input (each
@@ -277,10 +316,14 @@ def rank(config: str | None, method: str, order: str, calls: int | None, seed: i
     """
     from landrisk import api, report
 
+    if with_report and not out_dir:
+        raise click.UsageError("--report needs --out DIR")
     scenario, uncertain = api.load_study(config, overrides)
     result = api.rank(scenario, uncertain, method=method, calls=calls, order=_order(order), seed=seed,
                       mc_check=mc_check if method == "pce" else 0)
-    written = [str(p) for p in api.write_ranking(result, out_dir, force=force)] if out_dir else None
+    written = ([str(p) for p in api.write_ranking(result, out_dir, force=force, command=_command_line())]
+               if out_dir else None)
+    _write_report(out_dir, with_report, written, force)
     if as_json:
         _echo(api.dumps({k: v for k, v in api.ranking_record(result).items() if k != "scenario_text"}))
     else:
@@ -390,6 +433,28 @@ def study(study_file: str, out_dir: str | None, as_json: bool, workers: int | No
         _echo(api.dumps(record))
     else:
         _echo(report.render_study(result, written))
+
+
+@main.command("report", epilog=_HELP_CAUTION)
+@click.argument("results_dir", type=click.Path(file_okay=False))
+@click.option("--out", "out_file", type=click.Path(dir_okay=False),
+              help="The HTML file to write [default: report.html in RESULTS_DIR].")
+@click.option("--pdf", is_flag=True, help="Also print it to PDF (same name, .pdf) with headless Chromium.")
+@click.option("--force", is_flag=True, help="Replace existing report files.")
+@_reported
+def report_command(results_dir: str, out_file: str | None, pdf: bool, force: bool) -> None:
+    """Write one self-contained review document (HTML, optionally PDF) of a results folder.
+
+    RESULTS_DIR is a folder written by assess --out (also with a rare-event --method) or rank --out.
+    The document puts the caution first, then what was asked, the answer with its intervals, every input
+    with its distribution and source, the model and its limits, the ranking, the checks and the
+    provenance; its figures are embedded, so it needs no other file and no network.
+    """
+    from landrisk import api
+
+    for path in api.write_report(results_dir, out_file, pdf=pdf, force=force):
+        click.echo(f"wrote {path}")
+    click.echo(CAUTION)
 
 
 @main.command(epilog=_HELP_CAUTION)

@@ -1,4 +1,12 @@
-"""Figures of an assessment (matplotlib, imported only when a figure is made).
+"""Figures of an assessment (matplotlib, imported only when a figure is made), fit for print.
+
+Every figure goes through the same helpers: a colour-blind-safe palette (Okabe & Ito 2008, "Color
+Universal Design") with a line style per colour, so that lines stay apart in grey print too; the caution
+inside the plot area, where cropping keeps it, and "invented data" on figures of invented scenarios;
+the LDA and the end of the runway-end safety area on distance axes; titles wrapped to the figure's width
+and a layout that keeps every label inside the canvas at the figure's stated size. Files: PNG at
+300 dpi and SVG, both cut to the tight bounding box, with the run's provenance in their metadata and a
+one-line provenance footer.
 
 Each figure carries the caution and the run's provenance (tool version, scenario, samples, sampler,
 seed) in its footer and in the file's metadata. The assessment figures take ``units`` (``si``, the
@@ -8,13 +16,16 @@ distance) are counted in the exceedance curve and named in its title, and left o
 
 from __future__ import annotations
 
+import functools
 import io
 import json
-from typing import TYPE_CHECKING, Any
+import textwrap
+from collections.abc import Callable
+from typing import TYPE_CHECKING, Any, TypeVar
 
 import numpy as np
 
-from landrisk import CAUTION, __version__
+from landrisk import CAUTION, __version__, invented
 from landrisk.model import KEYS
 from landrisk.studies import Assessment, Ranking, RareAssessment
 from landrisk.studies.calibrate import Calibration
@@ -24,10 +35,14 @@ from landrisk.units import DisplayUnits
 from landrisk.uq import exceedance_curve, wilson_interval, zero_event_bound
 
 if TYPE_CHECKING:
+    from matplotlib.axes import Axes
     from matplotlib.figure import Figure
 
 __all__ = [
     "FIGURES",
+    "LINESTYLES",
+    "OKABE_ITO",
+    "PNG_DPI",
     "RANK_FIGURES",
     "calibration_residuals_figure",
     "convergence_figure",
@@ -45,6 +60,20 @@ __all__ = [
     "tornado_figure",
 ]
 
+#: Okabe & Ito (2008), "Color Universal Design (CUD): how to make figures and presentations that are
+#: friendly to colorblind people": blue, vermillion, bluish green, reddish purple, orange, sky blue,
+#: yellow, black.
+OKABE_ITO = ("#0072B2", "#D55E00", "#009E73", "#CC79A7", "#E69F00", "#56B4E9", "#F0E442", "#000000")
+#: One line style per colour of the cycle.
+LINESTYLES: tuple[Any, ...] = ("-", "--", "-.", ":", (0, (5, 1, 1, 1)), (0, (3, 1, 1, 1, 1, 1)),
+                               (0, (8, 2)), (0, (1, 3)))
+#: Resolution of the PNG files [dots per inch].
+PNG_DPI = 300
+#: Height of the provenance footer [inches].
+_FOOTER_IN = 0.28
+
+F = TypeVar("F", bound=Callable[..., Any])
+
 
 def _pyplot() -> Any:
     import matplotlib
@@ -55,16 +84,95 @@ def _pyplot() -> Any:
     return plt
 
 
-def _footer(fig: Figure, scenario: Any, run: str) -> None:
-    """Provenance (tool version, scenario, how the run was made) and the caution, under the axes."""
-    fig.text(0.01, 0.01, f"landrisk {__version__} | scenario {scenario.name} ({scenario.source}) | {run}\n"
-             + CAUTION, fontsize=6, va="bottom", ha="left", wrap=True)
+def _style() -> dict[str, Any]:
+    from cycler import cycler
+
+    return {"axes.prop_cycle": cycler(color=OKABE_ITO) + cycler(linestyle=LINESTYLES),
+            "font.size": 9, "axes.titlesize": 9.5, "axes.labelsize": 9, "legend.fontsize": 7.5,
+            "xtick.labelsize": 8, "ytick.labelsize": 8, "legend.framealpha": 0.9, "svg.hashsalt": "landrisk"}
+
+
+def styled(make: F) -> F:
+    """Make the figure under the print style (palette, line styles, font sizes)."""
+
+    @functools.wraps(make)
+    def wrapper(*args: Any, **kwargs: Any) -> Any:
+        import matplotlib
+
+        _pyplot()
+        style: Any = _style()
+        with matplotlib.rc_context(style):
+            return make(*args, **kwargs)
+
+    return wrapper  # type: ignore[return-value]
+
+
+def runway_marks(ax: Axes, lda_m: float, resa_m: float | None, unit: str = "m") -> None:
+    """The LDA and the end of the runway-end safety area (LDA + resa_length) as vertical lines on a
+    distance axis (in ``unit``, the axis's own), the safety area shaded between them."""
+    ax.axvline(lda_m, color="black", lw=2, ls="-", label=f"LDA {lda_m:.0f} {unit}", zorder=3)
+    if resa_m:
+        end = lda_m + resa_m
+        ax.axvspan(lda_m, end, color="0.85", alpha=0.6, lw=0, zorder=0)
+        ax.axvline(end, color="black", lw=1.4, ls=(0, (2, 1)), zorder=3,
+                   label=f"end of the safety area, LDA + {resa_m:.0f} {unit} = {end:.0f} {unit}")
+
+
+def _caution_box(fig: Figure, ax: Axes, scenario: Any, loc: str) -> None:
+    """The caution (and "INVENTED DATA") inside the plot area, in a framed box at ``loc``."""
+    from matplotlib.offsetbox import AnchoredText
+
+    width_in = ax.get_position().width * fig.get_figwidth()
+    chars = min(66, max(36, int(width_in * 0.85 * 72 / 3.4)))  # about 3.4 pt per character at 6.5 pt
+    lines = textwrap.wrap(CAUTION, chars)
+    if invented(scenario.values.get("scenario.description")):
+        lines = ["INVENTED DATA: an illustration, no real aircraft or runway", *lines]
+    box = AnchoredText("\n".join(lines), loc=loc, prop={"size": 6.5}, frameon=True, borderpad=0.4, pad=0.3)
+    box.patch.set_boxstyle("round,pad=0.2")
+    box.patch.set_facecolor("white")
+    box.patch.set_alpha(0.9)
+    box.patch.set_edgecolor("#D55E00")
+    box.set_zorder(5)
+    ax.add_artist(box)
+
+
+def _fit_titles(fig: Figure) -> None:
+    """Wrap the suptitle and each axes title that is wider than the figure or its axes."""
+    canvas: Any = fig.canvas
+    renderer = canvas.get_renderer()
+    texts = [(ax.title, ax.get_window_extent(renderer).width) for ax in fig.axes]
+    suptitle = getattr(fig, "_suptitle", None)
+    if suptitle is not None:
+        texts.append((suptitle, fig.bbox.width))
+    for text, room in texts:
+        content = text.get_text()
+        if not content:
+            continue
+        width = text.get_window_extent(renderer).width
+        if width > 0.98 * room:
+            longest = max(len(line) for line in content.splitlines())
+            chars = max(20, int(longest * 0.95 * room / width))
+            text.set_text("\n".join(textwrap.fill(line, chars) for line in content.splitlines()))
+
+
+def _footer(fig: Figure, scenario: Any, run: str, caution_loc: str = "upper right",
+            caution_ax: int = 0) -> None:
+    """The last step of every figure: the caution inside an axes (the first unless ``caution_ax``), a
+    provenance line under the axes, titles wrapped to fit and a layout that keeps every text inside the
+    canvas."""
+    _caution_box(fig, fig.axes[caution_ax], scenario, caution_loc)
+    fig.text(0.005, 0.005, f"landrisk {__version__} | scenario {scenario.name} ({scenario.source}) | {run}",
+             fontsize=6, va="bottom", ha="left")
+    _fit_titles(fig)
+    fig.tight_layout(rect=(0, _FOOTER_IN / fig.get_figheight(), 1, 1), pad=1.0)
+    _fit_titles(fig)
 
 
 def _assess_run(a: Assessment) -> str:
     return f"{a.settings.samples:,} samples, {a.settings.sampler}, seed {a.settings.seed}"
 
 
+@styled
 def exceedance_figure(a: Assessment, units: str | None = None) -> Figure:
     """P(total landing distance > x) on a log axis, with its 95 % band, the LDA and comparison lines.
 
@@ -88,22 +196,22 @@ def exceedance_figure(a: Assessment, units: str | None = None) -> Figure:
         ax.step(du.length(grid[keep]), p[keep], where="post", lw=1.6, label="Monte Carlo estimate")
     ax.set_yscale("log")
     ax.set_ylim(floor, 1.0)
-    ax.axvline(du.length(a.lda_m), color="black", lw=2, label=f"LDA {du.length(a.lda_m):.0f} {lu}")
-    for c, style in zip(a.comparisons, ("--", "-.", ":", (0, (5, 1, 1, 1))), strict=False):
+    runway_marks(ax, du.length(a.lda_m), du.length(a.resa_length_m), lu)
+    for c, colour, style in zip(a.comparisons, OKABE_ITO[1:], LINESTYLES[1:], strict=False):
         d = du.length(c.distance_m)
-        ax.axvline(d, ls=style, color="grey", lw=1.2, label=f"{c.name}: {d:.0f} {lu}")
+        ax.axvline(d, ls=style, color=colour, lw=1.4, label=f"{c.name}: {d:.0f} {lu}")
     ax.set_xlabel(f"total landing distance from the screen height x [{lu}]")
     ax.set_ylabel("probability that the distance exceeds x")
     stop = f"; {a.cannot_stop:,} of {a.n:,} landings cannot stop" if a.cannot_stop else ""
     ax.set_title(f"Exceedance of the landing distance: {a.scenario.name}\n"
                  f"P(overrun) = {a.p_overrun.text()}{stop}", fontsize=9)
     ax.grid(True, which="both", alpha=0.3)
-    ax.legend(fontsize=7, loc="lower left")
-    fig.subplots_adjust(bottom=0.2)
+    ax.legend(loc="lower left")
     _footer(fig, a.scenario, _assess_run(a))
     return fig
 
 
+@styled
 def histogram_figure(a: Assessment, units: str | None = None) -> Figure:
     """Histogram of the total landing distance (of the landings that stop) with the LDA."""
     plt = _pyplot()
@@ -113,23 +221,27 @@ def histogram_figure(a: Assessment, units: str | None = None) -> Figure:
     fig, ax = plt.subplots(figsize=(8, 4.8))
     stops = total[np.isfinite(total)]
     if stops.size:
-        ax.hist(du.length(stops), bins=120, density=True, alpha=0.8)
+        ax.hist(du.length(stops), bins=120, density=True, color=OKABE_ITO[0], alpha=0.85,
+                label=f"Monte Carlo, {stops.size:,} landings that stop")
+        ax.set_yscale("log")
     else:
         ax.text(0.5, 0.5, "no landing stops", transform=ax.transAxes, ha="center")
-    ax.axvline(du.length(a.lda_m), color="black", lw=2, label=f"LDA {du.length(a.lda_m):.0f} {lu}")
+    runway_marks(ax, du.length(a.lda_m), du.length(a.resa_length_m), lu)
     if np.isfinite(a.nominal_total_m):
         d = du.length(a.nominal_total_m)
-        ax.axvline(d, color="grey", ls="--", label=f"deterministic {d:.0f} {lu}")
+        ax.axvline(d, color=OKABE_ITO[1], ls="--", label=f"deterministic {d:.0f} {lu}")
     ax.set_xlabel(f"total landing distance from the screen height [{lu}]")
     ax.set_ylabel(f"probability density [1/{lu}]")
     stop = f" ({a.cannot_stop:,} landings that cannot stop left out)" if a.cannot_stop else ""
-    ax.set_title(f"Distribution of the landing distance: {a.scenario.name}{stop}", fontsize=9)
-    ax.legend(fontsize=8)
-    fig.subplots_adjust(bottom=0.2)
+    ax.set_title(f"Distribution of the landing distance: {a.scenario.name}{stop}\n"
+                 f"P(overrun) = {a.p_overrun.text()}", fontsize=9)
+    ax.grid(True, which="major", alpha=0.3)
+    ax.legend(loc="lower left")
     _footer(fig, a.scenario, _assess_run(a))
     return fig
 
 
+@styled
 def convergence_figure(a: Assessment, units: str | None = None) -> Figure:
     """P(overrun) and the 99th percentile against the number of samples used."""
     plt = _pyplot()
@@ -138,18 +250,30 @@ def convergence_figure(a: Assessment, units: str | None = None) -> Figure:
     n, p = c["n"], c["p_event"]
     conf = a.settings.confidence
     lo, hi = wilson_interval(np.rint(p * n), n, conf)
-    fig, (ax1, ax2) = plt.subplots(1, 2, figsize=(9, 4.4))
-    ax1.plot(n, p, marker="o", ms=3, label="estimate")
-    ax1.fill_between(n, lo, hi, alpha=0.3, label=f"{100 * conf:g} % interval (Wilson)")
+    fig, (ax1, ax2) = plt.subplots(1, 2, figsize=(9, 4.6))
+    floor = 0.3 / float(np.max(n))  # below any nonzero estimate: zero estimates fall off the log axis
+    ax1.fill_between(n, np.maximum(lo, floor), np.maximum(hi, floor), alpha=0.3, color=OKABE_ITO[0],
+                     label=f"{100 * conf:g} % interval (Wilson)")
+    ax1.plot(n, np.where(p > 0, p, np.nan), marker="o", ms=3, label="estimate")
+    if np.any(p > 0):
+        ax1.set_yscale("log")
+        ax1.set_ylim(bottom=floor)
     ax1.set_xscale("log")
     ax1.set_xlabel("samples")
     ax1.set_ylabel("P(overrun)")
     ax1.set_title("overrun probability", fontsize=9)
-    ax1.legend(fontsize=7)
+    ax1.legend(loc="lower left")
     q = np.asarray(c["quantile"], dtype=float)
     ok = np.isfinite(q)
-    ax2.plot(n[ok], du.length(q[ok]), marker="o", ms=3)
-    ax2.set_xscale("log")
+    lda = du.length(a.lda_m)
+    if ok.any():
+        ax2.plot(n[ok], du.length(q[ok]), marker="o", ms=3)
+        ax2.axhline(lda, color="black", lw=1.5, label=f"LDA {lda:.0f} {du.unit('length')}")
+        ax2.legend(loc="lower right")
+        ax2.set_xscale("log")
+    else:
+        ax2.text(0.5, 0.5, "beyond any runway at every sample count", transform=ax2.transAxes,
+                 ha="center", fontsize=8)
     ax2.set_xlabel("samples")
     ax2.set_ylabel(f"P99 of the total distance [{du.unit('length')}]")
     ax2.set_title("99th percentile" + ("" if ok.all() else " (beyond any runway where not shown)"),
@@ -157,8 +281,7 @@ def convergence_figure(a: Assessment, units: str | None = None) -> Figure:
     for ax in (ax1, ax2):
         ax.grid(True, which="both", alpha=0.3)
     fig.suptitle(f"Convergence of the Monte Carlo estimates: {a.scenario.name}", fontsize=10)
-    fig.subplots_adjust(bottom=0.25, wspace=0.3)
-    _footer(fig, a.scenario, _assess_run(a))
+    _footer(fig, a.scenario, _assess_run(a), caution_loc="center right", caution_ax=1)
     return fig
 
 
@@ -166,14 +289,21 @@ def convergence_figure(a: Assessment, units: str | None = None) -> Figure:
 FIGURES = {"exceedance": exceedance_figure, "histogram": histogram_figure, "convergence": convergence_figure}
 
 
-def figure_bytes(fig: Figure, fmt: str, record: dict[str, Any]) -> bytes:
-    """The figure as PNG or SVG bytes, with the run's record in the file's metadata; closes it."""
+def figure_bytes(fig: Figure, fmt: str, record: dict[str, Any], *, close: bool = True) -> bytes:
+    """The figure as PNG (300 dpi) or SVG bytes, cut to its tight bounding box, with the run's record in
+    the file's metadata; closes it unless ``close`` is false."""
     plt = _pyplot()
     buf = io.BytesIO()
     text = json.dumps(record, sort_keys=True, default=str, ensure_ascii=False)
     meta = {"Description": text} if fmt == "png" else {"Description": text, "Date": None}
-    fig.savefig(buf, format=fmt, dpi=130, metadata=meta)
-    plt.close(fig)
+    bbox = getattr(fig, "_landrisk_tight_bbox", None)  # one layout pass for both formats
+    if bbox is None:
+        canvas: Any = fig.canvas
+        bbox = fig.get_tightbbox(canvas.get_renderer()).padded(0.05)
+        fig._landrisk_tight_bbox = bbox  # type: ignore[attr-defined]
+    fig.savefig(buf, format=fmt, dpi=PNG_DPI, metadata=meta, bbox_inches=bbox)
+    if close:
+        plt.close(fig)
     return buf.getvalue()
 
 
@@ -196,6 +326,7 @@ def _value_text(name: str, v: float) -> str:
     return f"{text} {unit}".rstrip()
 
 
+@styled
 def indices_figure(r: Ranking) -> Figure:
     """Sobol indices of the total landing distance per input (discrete inputs each their own bar), the
     Shapley effects beside them with correlated inputs, and each input's first-order index of the overrun
@@ -245,6 +376,7 @@ def indices_figure(r: Ranking) -> Figure:
     return fig
 
 
+@styled
 def tornado_figure(r: Ranking) -> Figure:
     """One-at-a-time swings of the total distance and of the margin to the LDA, largest first; a discrete
     input from its least to its greatest value."""
@@ -255,8 +387,9 @@ def tornado_figure(r: Ranking) -> Figure:
     for ax, attr, axis_label in ((axes[0], "swing_total_m", "change of the total distance [m]"),
                                  (axes[1], "swing_margin_m", "change of the margin to the LDA [m]")):
         vals = [getattr(i, attr) for i in rows]
-        ax.barh(y, vals, color=["tab:red" if v > 0 else "tab:blue" for v in vals] if attr == "swing_total_m"
-                else ["tab:blue" if v > 0 else "tab:red" for v in vals])
+        worse = [v > 0 for v in vals] if attr == "swing_total_m" else [v < 0 for v in vals]
+        ax.barh(y, vals, color=[OKABE_ITO[1] if w else OKABE_ITO[0] for w in worse],
+                hatch=["//" if w else "" for w in worse], edgecolor="black", lw=0.4)
         ax.axvline(0, color="black", lw=1)
         ax.set_xlabel(axis_label, fontsize=8)
         ax.grid(True, axis="x", alpha=0.3)
@@ -272,6 +405,7 @@ def tornado_figure(r: Ranking) -> Figure:
     return fig
 
 
+@styled
 def overrun_profile_figure(r: Ranking) -> Figure:
     """Small multiples: each input's distribution given an overrun beside its prior, with both medians, in
     the unit the scenario file uses (kt for speeds); a discrete input as bars per value."""
@@ -324,11 +458,12 @@ def overrun_profile_figure(r: Ranking) -> Figure:
         src += ": too few to draw the overrun profile"
     fig.suptitle(f"Inputs given an overrun (red) beside all landings (blue), dashed: medians: "
                  f"{r.scenario.name}\n({src})", fontsize=9)
-    fig.subplots_adjust(left=0.05, right=0.98, top=0.88, bottom=0.16, hspace=0.7, wspace=0.15)
+    fig.subplots_adjust(left=0.06, right=0.95, top=0.88, bottom=0.16, hspace=0.7, wspace=0.2)
     _footer(fig, r.scenario, f"seed {r.settings.seed}")
     return fig
 
 
+@styled
 def surrogate_exceedance_figure(r: Ranking) -> Figure:
     """Exceedance curve of the total distance from the surrogate, beside the Monte Carlo check's."""
     plt = _pyplot()
@@ -346,8 +481,7 @@ def surrogate_exceedance_figure(r: Ranking) -> Figure:
         keep = p > 0
         ax.step(grid[keep], p[keep], where="post", label=label)
         floor = min(floor, 0.5 / xs.size)
-    lda = float(r.scenario.values["runway.lda"])
-    ax.axvline(lda, color="black", lw=2, label=f"LDA {lda:.0f} m")
+    runway_marks(ax, float(r.scenario.values["runway.lda"]), r.scenario.values.get("runway.resa_length"))
     ax.set_yscale("log")
     ax.set_ylim(floor, 1)
     ax.set_xlabel("total landing distance from the screen height x [m]")
@@ -356,8 +490,7 @@ def surrogate_exceedance_figure(r: Ranking) -> Figure:
     verdict = "passed" if passed else "FAILED: the surrogate's tail is not reliable"
     ax.set_title(f"Surrogate exceedance curve: {r.scenario.name} (tail check {verdict})", fontsize=9)
     ax.grid(True, which="both", alpha=0.3)
-    ax.legend(fontsize=8, loc="lower left")
-    fig.subplots_adjust(bottom=0.2)
+    ax.legend(loc="lower left")
     _footer(fig, r.scenario, f"seed {r.settings.seed}")
     return fig
 
@@ -368,6 +501,7 @@ RANK_FIGURES = {"indices": indices_figure, "tornado": tornado_figure,
                 "surrogate-exceedance": surrogate_exceedance_figure}
 
 
+@styled
 def risk_curve_figure(r: RareAssessment) -> Figure:
     """P(overrun) against the landing distance available, one curve per method, on a log axis; the subset
     curve with its interval band, drawn only where every replicate reached it; the estimate at the LDA
@@ -386,6 +520,7 @@ def risk_curve_figure(r: RareAssessment) -> Figure:
     pts = np.array(rc.form_points)
     ax.plot(pts[:, 0], pts[:, 1], "s", label=f"FORM ({rc.form_calls:,} calls)")
     lda = float(r.scenario.values["runway.lda"])
+    runway_marks(ax, lda, r.scenario.values.get("runway.resa_length"))
     if r.converged and r.probability > 0:
         ax.errorbar([lda], [r.probability], yerr=[[r.probability - r.ci[0]], [r.ci[1] - r.probability]],
                     fmt="o", color="black", capsize=4,
@@ -399,8 +534,7 @@ def risk_curve_figure(r: RareAssessment) -> Figure:
     ax.set_ylabel("probability of an overrun per landing")
     ax.set_title(f"Overrun risk against runway length: {r.scenario.name}", fontsize=9)
     ax.grid(True, which="both", alpha=0.3)
-    ax.legend(fontsize=7, loc="lower left")
-    fig.subplots_adjust(bottom=0.2)
+    ax.legend(loc="lower left")
     _footer(fig, r.scenario, f"seed {r.settings.seed}")
     return fig
 

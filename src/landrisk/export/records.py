@@ -12,8 +12,10 @@ with a unit ends in it, in SI: ``_m``, ``_mps`` (m/s), ``_kt`` where stated, ``_
 
 from __future__ import annotations
 
+import hashlib
 import json
 import math
+from collections.abc import Mapping
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -30,6 +32,7 @@ __all__ = [
     "assessment_record",
     "dumps",
     "input_units",
+    "inputs_hash",
     "provenance",
     "ranking_record",
     "rare_record",
@@ -81,6 +84,17 @@ def dumps(record: Any, indent: int | None = 2) -> str:
 
 def _num(x: float | None) -> float | None:
     return None if x is None or not math.isfinite(x) else float(x)
+
+
+def inputs_hash(inputs: Mapping[str, Any], uncertain: Mapping[str, Any] | None) -> str:
+    """SHA-256 of the resolved inputs (scenario values and the uncertain tables as recorded), hex.
+
+    Computed on the canonical JSON of what a summary file holds (keys sorted), so that the same hash
+    can be recomputed from ``summary.json``'s ``inputs`` and ``uncertain`` entries.
+    """
+    data = json.loads(json.dumps({"inputs": dict(inputs), "uncertain": dict(uncertain or {})}, default=str))
+    text = json.dumps(data, sort_keys=True, separators=(",", ":"), ensure_ascii=True)
+    return hashlib.sha256(text.encode("ascii")).hexdigest()
 
 
 def input_units() -> dict[str, str]:
@@ -307,7 +321,8 @@ def _ranking_figures(r: Ranking) -> dict[str, Any]:
 def ranking_record(r: Ranking) -> dict[str, Any]:
     """Everything about a ranking, JSON-ready: provenance, results, resolved inputs."""
     return {**provenance(r.scenario, seed=r.settings.seed, method=r.method), **_ranking_figures(r),
-            "inputs_used": dict(r.scenario.values), "scenario_text": r.scenario.text}
+            "inputs_used": dict(r.scenario.values), "input_units": input_units(), "uncertain": dict(r.record),
+            "scenario_text": r.scenario.text}
 
 
 def _finite(v: float | None) -> float | None:
@@ -370,4 +385,4 @@ def rare_record(r: RareAssessment) -> dict[str, Any]:
     assess_keys = {"samples": rec["model_calls"], "sampler": "standard normal space, seeded",
                    "overruns": None, "percentiles_m": {}, "mean_m": None, "sd_m": None}
     return {**provenance(r.scenario), **assess_keys, **rec, "inputs": dict(r.scenario.values),
-            "input_units": input_units()}
+            "input_units": input_units(), "uncertain": dict(r.record)}

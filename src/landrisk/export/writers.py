@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import json
 from collections.abc import Callable, Iterable, Mapping, Sequence
+from datetime import UTC, datetime
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -22,7 +23,14 @@ import numpy as np
 from numpy.typing import NDArray
 
 from landrisk.errors import ConfigError
-from landrisk.export.records import assessment_record, dumps, json_safe, ranking_record, rare_record
+from landrisk.export.records import (
+    assessment_record,
+    dumps,
+    inputs_hash,
+    json_safe,
+    ranking_record,
+    rare_record,
+)
 from landrisk.export.tables import (
     Units,
     overrun_profile_table,
@@ -51,6 +59,8 @@ SAMPLE_FORMATS = ("csv", "parquet")
 #: Names every result set may hold (dropped by a rerun even when the new set has no such file).
 _KNOWN = ("summary.json", "ranking.json", "percentiles.csv", "samples.csv", "samples.parquet",
           "indices.csv", "risk-curve.csv")
+#: Keys of a record written after the inputs in figure metadata: when and how it was made.
+_RUN = ("created_utc", "inputs_sha256", "command")
 
 
 def _file_key(name: str) -> str:
@@ -86,6 +96,7 @@ def write_result_set(
     force: bool = False,
     stage: StagedFolder | None = None,
     streamed: Sequence[str] = (),
+    command: str | None = None,
 ) -> list[Path]:
     """Write ``summary_name`` (the JSON ``record``), each table as CSV and each figure as PNG and SVG.
 
@@ -106,7 +117,14 @@ def write_result_set(
         The resolved scenario values, recorded in the figures' metadata.
     stage : StagedFolder, optional
         An open staging folder holding files already written (``streamed``); committed here.
+    command : str, optional
+        The command line that produced the result, recorded with the provenance.
+
+    The record gains ``created_utc`` (ISO 8601, UTC, to the second), ``inputs_sha256`` (see
+    :func:`landrisk.export.inputs_hash`) and ``command`` (``None`` when not given).
     """
+    record = {**record, "created_utc": datetime.now(UTC).replace(microsecond=0).isoformat(),
+              "inputs_sha256": inputs_hash(inputs, record.get("uncertain")), "command": command}
     names = [summary_name, *tables, *streamed, *_figure_names(figures)]
     if stage is None:
         with StagedFolder(Path(folder), names, force=force,
@@ -126,10 +144,11 @@ def _fill(stage: StagedFolder, names: list[str], summary_name: str, record: dict
     if figures:
         from landrisk.plotting import figure_bytes
 
-        fig_meta = json_safe({**meta, "inputs": dict(inputs)})
+        fig_meta = json_safe({**meta, "inputs": dict(inputs), **{k: record[k] for k in _RUN}})
         for stem, make in figures.items():
+            fig = make(result)  # drawn once, saved twice
             for fmt in ("png", "svg"):
-                stage.write(f"{stem}.{fmt}", figure_bytes(make(result), fmt, fig_meta))
+                stage.write(f"{stem}.{fmt}", figure_bytes(fig, fmt, fig_meta, close=fmt == "svg"))
     stage.write(summary_name, dumps(record) + "\n")
     stage.names = names
     return stage.commit()
@@ -211,7 +230,8 @@ def _assess_figures(figures: bool, units: Units) -> dict[str, Callable[[Any], An
 
 def write_assessment(a: Assessment, folder: str | Path, *, force: bool = False, figures: bool = True,
                      units: Units = None, samples_format: str = "csv",
-                     stage: StagedFolder | None = None, stream: SampleStream | None = None) -> list[Path]:
+                     stage: StagedFolder | None = None, stream: SampleStream | None = None,
+                     command: str | None = None) -> list[Path]:
     """summary.json, percentiles.csv, the figures (PNG and SVG) and, if kept, the samples.
 
     The samples are ``samples.csv`` or ``samples.parquet`` (``samples_format``): from the assessment if
@@ -236,23 +256,26 @@ def write_assessment(a: Assessment, folder: str | Path, *, force: bool = False, 
                           previous=previous_files(folder, "summary.json")) as st:
             samples_table(a, units).to_parquet(st.path("samples.parquet"), index=False)
             return write_result_set(folder, "summary.json", record, tables, _assess_figures(figures, units),
-                                    a, inputs=a.scenario.values, stage=st, streamed=streamed)
+                                    a, inputs=a.scenario.values, stage=st, streamed=streamed,
+                                    command=command)
     return write_result_set(folder, "summary.json", record, tables, _assess_figures(figures, units), a,
-                            inputs=a.scenario.values, force=force, stage=stage, streamed=streamed)
+                            inputs=a.scenario.values, force=force, stage=stage, streamed=streamed,
+                            command=command)
 
 
-def write_ranking(r: Ranking, folder: str | Path, *, force: bool = False, units: Units = None) -> list[Path]:
+def write_ranking(r: Ranking, folder: str | Path, *, force: bool = False, units: Units = None,
+                  command: str | None = None) -> list[Path]:
     """ranking.json, indices.csv and the index and tornado figures (and the surrogate's exceedance)."""
     from landrisk.plotting import RANK_FIGURES
 
     figs = {k: f for k, f in RANK_FIGURES.items() if r.method == "pce" or k != "surrogate-exceedance"}
     tables = {"indices.csv": rank_table(r, units), "overrun-profile.csv": overrun_profile_table(r)}
     return write_result_set(folder, "ranking.json", ranking_record(r), tables, figs, r,
-                            inputs=r.scenario.values, force=force)
+                            inputs=r.scenario.values, force=force, command=command)
 
 
 def write_rare(r: RareAssessment, folder: str | Path, *, force: bool = False,
-               units: Units = None) -> list[Path]:
+               units: Units = None, command: str | None = None) -> list[Path]:
     """summary.json and, with a risk curve, risk-curve.csv and its figure (PNG and SVG)."""
     tables, figs = {}, {}
     if r.risk_curve is not None:
@@ -261,4 +284,4 @@ def write_rare(r: RareAssessment, folder: str | Path, *, force: bool = False,
         tables["risk-curve.csv"] = risk_curve_table(r, units)
         figs["risk-curve"] = risk_curve_figure
     return write_result_set(folder, "summary.json", rare_record(r), tables, figs, r,
-                            inputs=r.scenario.values, force=force)
+                            inputs=r.scenario.values, force=force, command=command)

@@ -2,16 +2,16 @@
 format nor write (records, tables and files are :mod:`landrisk.export`'s).
 
 Each study module is imported on first use of one of its names, so that a command imports only the
-methods it runs (``rank`` brings in chaospy, ``solve`` none of them). The functions that share a name
-with their module are imported from the module itself: ``from landrisk.studies.assess import assess``,
-``from landrisk.studies.rank import rank``.
+methods it runs (``rank`` brings in chaospy, ``solve`` none of them). ``assess`` and ``rank`` name
+functions here, as their modules do (``import landrisk.studies.assess as module`` gives the function
+too: use ``importlib.import_module`` for the module itself).
 """
 
 from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
-from landrisk._lazy import lazy_names
+from landrisk._lazy import keep_functions, lazy_names
 
 if TYPE_CHECKING:
     from landrisk.studies.assess import (
@@ -21,16 +21,17 @@ if TYPE_CHECKING:
         Assessment,
         AssessSettings,
         ComparisonLine,
+        assess,
     )
     from landrisk.studies.binding import OUTPUTS, Branch, landing_model, limit_state
-    from landrisk.studies.rank import InputRank, Ranking, RankSettings
+    from landrisk.studies.rank import InputRank, Ranking, RankSettings, rank
     from landrisk.studies.rare import RARE_METHODS, RareAssessment, RareSettings, rare_assess
 
 _WHERE = {
     "landrisk.studies.assess": ("COMPARISON_FACTORS", "PERCENTILES", "PHASES", "Assessment",
-                                "AssessSettings", "ComparisonLine"),
+                                "AssessSettings", "ComparisonLine", "assess"),
     "landrisk.studies.binding": ("OUTPUTS", "Branch", "landing_model", "limit_state"),
-    "landrisk.studies.rank": ("InputRank", "Ranking", "RankSettings"),
+    "landrisk.studies.rank": ("InputRank", "Ranking", "RankSettings", "rank"),
     "landrisk.studies.rare": ("RARE_METHODS", "RareAssessment", "RareSettings", "rare_assess"),
 }
 __all__ = [
@@ -48,10 +49,13 @@ __all__ = [
     "Ranking",
     "RareAssessment",
     "RareSettings",
+    "assess",
     "landing_model",
     "limit_state",
+    "rank",
     "rare_assess",
 ]
 
 
 __getattr__, __dir__ = lazy_names("landrisk.studies", _WHERE, globals())
+keep_functions(__name__, ("assess", "rank"))

@@ -27,8 +27,9 @@ Sobol indices, which then depend on the order of the inputs.
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -257,6 +258,7 @@ class Ranking:
     warnings: list[str] = field(default_factory=list)
     form_importance: dict[str, float] = field(default_factory=dict)  # alpha^2 at the design point
     form_beta: float | None = None
+    record: Mapping[str, Any] = field(default_factory=dict)  # how the inputs were specified
 
     def __repr__(self) -> str:
         return shown.repr_of("Ranking", shown.ranking_lines(self))

@@ -28,7 +28,7 @@ solver with the points of all branches, the discrete inputs as columns.
 from __future__ import annotations
 
 import math
-from collections.abc import Hashable
+from collections.abc import Hashable, Mapping
 from dataclasses import dataclass, field
 from typing import Any, cast
 
@@ -143,6 +143,7 @@ class RareAssessment:
     cross_check: CrossCheck | None = None
     risk_curve: RiskCurve | None = None
     bound_limited: list[str] = field(default_factory=list)  # inputs whose bound sets the probability
+    record: Mapping[str, Any] = field(default_factory=dict)  # how the inputs were specified
 
     def __repr__(self) -> str:
         return shown.repr_of("RareAssessment", shown.rare_lines(self))
