@@ -227,6 +227,7 @@ def test_cli_assess_table_and_a_scenario_of_our_own(tmp_path: Path) -> None:
         assert text in r.output
 
 
+@pytest.mark.slow
 def test_cli_assess_writes_files_with_provenance(tmp_path: Path) -> None:
     out = tmp_path / "run"
     r = run("assess", "--samples", "3000", "--seed", "7", "--sampler", "sobol", "--out", str(out),

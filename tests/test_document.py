@@ -26,6 +26,9 @@ from landrisk.export import inputs_hash, write_ranking
 from landrisk.studies import RankSettings
 from landrisk.studies import rank as study_rank
 
+# Rendering whole results folders and figures takes tens of seconds: the slow set (run by .ci/run).
+pytestmark = pytest.mark.slow
+
 ORDER = [sid for sid, _ in SECTIONS]
 #: Attributes that make a browser fetch something.
 URL_ATTRIBUTES = ("href", "src", "srcset", "action", "formaction", "poster", "data", "background", "cite",
@@ -112,6 +115,7 @@ def shown_matches(text: str, value: float) -> bool:
     return abs(shown - value) <= 0.5 * quantum * (1 + 1e-9) + 1e-12 * abs(value)
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("which", ["assessment_dir", "ranking_dir", "rare_dir"])
 def test_every_section_is_present_in_reading_order(which: str, request: pytest.FixtureRequest) -> None:
     folder = request.getfixturevalue(which)

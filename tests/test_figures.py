@@ -19,6 +19,9 @@ matplotlib = pytest.importorskip("matplotlib")
 from matplotlib.offsetbox import AnchoredText  # noqa: E402
 from matplotlib.text import Text  # noqa: E402
 
+# Rendering whole results folders and figures takes tens of seconds: the slow set (run by .ci/run).
+pytestmark = pytest.mark.slow
+
 OVERRIDE = 'scenario.description="Operator survey data, runway 09L"'
 
 
@@ -87,6 +90,7 @@ def caution_box(fig: Any) -> AnchoredText:
     return boxes[0]
 
 
+@pytest.mark.slow
 def test_no_text_is_cut_off(figures: dict[str, Any]) -> None:
     for stem, fig in figures.items():
         assert outside(fig) == [], stem
@@ -112,6 +116,7 @@ def test_the_check_catches_a_cut_off_title() -> None:
     plt.close(fig)
 
 
+@pytest.mark.slow
 def test_png_is_300_dpi_and_svg_is_written(results: dict[str, Any]) -> None:
     from PIL import Image
 
@@ -125,6 +130,7 @@ def test_png_is_300_dpi_and_svg_is_written(results: dict[str, Any]) -> None:
     assert svg.lstrip().startswith(b"<?xml") and b"<svg" in svg
 
 
+@pytest.mark.slow
 def test_caution_and_invented_data_inside_the_plot_area(results: dict[str, Any],
                                                          figures: dict[str, Any]) -> None:
     for stem, fig in figures.items():

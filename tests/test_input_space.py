@@ -211,6 +211,7 @@ def test_piece_integrals_match_quad(a, b, c, w, width, start, scale) -> None:
 # --- free roll against scipy.integrate.solve_ivp across the allowed thrust range ----------------------
 @settings(max_examples=10, deadline=None, derandomize=True,
           suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much])
+@pytest.mark.slow
 @given(scenario_values())
 def test_free_roll_matches_solve_ivp(values) -> None:
     # solve_ivp (Radau, implicit, for the stiff laws the thrust range allows; rtol 1e-12).

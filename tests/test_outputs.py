@@ -144,6 +144,7 @@ def test_one_sample_gives_no_standard_deviation() -> None:
 
 # --- JSON -------------------------------------------------------------------------------------------
 
+@pytest.mark.slow
 def test_every_json_is_valid_and_speeds_read_mps(tmp_path: Path) -> None:
     texts = {"solve": run("solve", "--json").stdout,
              "assess": run("assess", "--samples", "2000", "--json", "--out", str(tmp_path / "a")).stdout}
@@ -257,6 +258,7 @@ def test_force_rerun_replaces_the_whole_set_and_keeps_other_files(tmp_path: Path
     assert not [p for p in tmp_path.iterdir() if p.name.startswith(".")]  # no staging folder left
 
 
+@pytest.mark.slow
 def test_sigterm_mid_write_leaves_the_old_set_and_no_temporary_files(tmp_path: Path) -> None:
     out = tmp_path / "run"
     scenario, uncertain = api.load_study()
@@ -350,6 +352,7 @@ def test_init_file_carries_the_caution(tmp_path: Path) -> None:
     assert CAUTION in path.read_text(encoding="utf-8")
 
 
+@pytest.mark.slow
 def test_no_landing_stops(tmp_path: Path) -> None:
     scenario, uncertain = api.load_study(None, ["runway.slope=\"-20 %\"", 'aircraft.thrust.idle.t0="150 kN"',
                                                 "procedure.use_reverse=false"])

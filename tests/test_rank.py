@@ -131,6 +131,7 @@ def run(*args: str):
     return CliRunner().invoke(main, list(args))
 
 
+@pytest.mark.slow
 def test_cli_rank_json(tmp_path: Path) -> None:
     out = tmp_path / "rank"
     r = run("rank", "--calls", "400", "--mc-check", "0", "--json", "--out", str(out))

@@ -49,6 +49,7 @@ def test_subset_simulation_within_its_interval(d) -> None:
     assert est.converged and est.ci[0] <= EXACT <= est.ci[1]
 
 
+@pytest.mark.slow
 def test_interval_coverage_over_many_seeds() -> None:
     # The reported 95 % intervals must contain the exact P_f in at least 93 % of independent runs.
     g = linear(2)

@@ -126,6 +126,7 @@ def test_cli_refuses_monte_carlo_options_with_a_rare_method() -> None:
     assert res.exit_code == 2 and "for the rare methods only" in res.output
 
 
+@pytest.mark.slow
 def test_cli_rare_settings_apply_and_are_printed(tmp_path) -> None:
     res = CliRunner().invoke(main, ["assess", SCENARIO, "--method", "subset", "--subset-samples", "200",
                                     "--target-cov", "0.3", "--json"])
@@ -139,6 +140,7 @@ def test_cli_rare_settings_apply_and_are_printed(tmp_path) -> None:
     assert "generalised beta nan" not in text
 
 
+@pytest.mark.slow
 def test_demo_risk_curve_has_an_interval_at_every_point() -> None:
     scenario, uncertain = api.load_study(None, ['runway.lda="2580 m"'])
     r = api.rare(scenario, uncertain, subset_samples=400, cross_check=False)
@@ -170,6 +172,7 @@ def test_pareto_tail_for_an_empirical_input() -> None:
         make_marginal("empirical", {"data": data[:30], "pareto_tail_above": 0.9})
 
 
+@pytest.mark.slow
 def test_pareto_tail_lifts_the_bound_from_the_scenario() -> None:
     # The invented scenario with the touchdown sample given a Pareto tail above its 70 % quantile: the
     # answer at 2420 m is no longer set by the largest observation.

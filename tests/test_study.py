@@ -291,6 +291,7 @@ target_per_year = 50
 """
 
 
+@pytest.mark.slow
 def test_cli_json_and_files(tmp_path: Path) -> None:
     p = write(tmp_path, SMALL)
     out = tmp_path / "out"
@@ -350,6 +351,7 @@ def test_rerun_recomputes_only_what_changed(tmp_path: Path) -> None:
     assert _comparable(first)[0] == _comparable(second)[0][:2]  # type: ignore[index]
 
 
+@pytest.mark.slow
 def test_a_study_killed_mid_run_resumes(tmp_path: Path) -> None:
     cases = "".join(f'\n[[case]]\nname = "t{k}"\n"procedure.reaction_time" = "{1 + k / 4} s"\n'
                     for k in range(6))
