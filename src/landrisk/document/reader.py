@@ -31,7 +31,7 @@ class Reader:
 
 
 def _is_rare(s: Mapping[str, Any]) -> bool:
-    return s.get("method") in ("form", "importance", "subset")
+    return s.get("method") in ("auto", "form", "sorm", "importance", "subset")
 
 
 #: Kinds of results folder, tried in order. The study folder (``landrisk study --out``) is not read yet:
