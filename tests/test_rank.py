@@ -323,3 +323,13 @@ def test_demo_overrun_influence_agrees_between_importance_and_monte_carlo_sample
             m = r.problem.marginals[r.problem.names.index(pa.name)]
             spread = float(np.diff(m.ppf(np.array([0.05, 0.95])))[0])
             assert abs(pa.overrun_median - pb.overrun_median) <= 0.1 * spread, pa.name
+
+
+@pytest.mark.parametrize("method", ["pce", "mc"])
+def test_landings_that_cannot_stop_are_refused_not_fitted(method) -> None:
+    # A 20 % downhill slope: gravity outweighs braking on some landings, whose distance is infinite. A
+    # surrogate or a variance of the distance must never be computed from them (a one-line error, exit 2).
+    r = run("rank", "--method", method, "--calls", "700", "--mc-check", "0", "--set", 'runway.slope="-20 %"')
+    assert r.exit_code == 2, r.output
+    assert "cannot stop" in r.stderr and "Traceback" not in r.output + r.stderr
+    assert len(r.stderr.strip().splitlines()) == 1

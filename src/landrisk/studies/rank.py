@@ -484,6 +484,17 @@ def _level_names(problem: Problem, i: int) -> tuple[str, ...]:
     return tuple(f"{cast(float(v))} ({100 * p:.3g} %)" for v, p in zip(values, probs, strict=True) if p > 0)
 
 
+def _refuse_landings_that_cannot_stop(total_m: Array, scenario: Scenario, where: str) -> None:
+    """Variance-based indices of the distance need a finite distance: landings that cannot stop (an
+    infinite distance) are refused with a one-line error instead of being fitted or averaged."""
+    bad = int(np.count_nonzero(~np.isfinite(total_m)))
+    if bad:
+        raise LandriskError(
+            f"{scenario.source}: {bad} of {total_m.size} landings in {where} cannot stop (thrust and slope "
+            "outweigh braking): the distance's Sobol indices are not defined; `landrisk assess` counts them "
+            "as overruns")
+
+
 def _rank_monte_carlo(scenario: Scenario, problem: Problem, s: RankSettings, rng: np.random.Generator,
                       swings: list[tuple[float, float, float, float]], breakdown: dict[str, int],
                       common: dict) -> Ranking:
@@ -491,7 +502,12 @@ def _rank_monte_carlo(scenario: Scenario, problem: Problem, s: RankSettings, rng
     d = problem.dimension
     n = max((s.calls or 8192 * (d + 2)) // (d + 2), 64)
     total_model = _matrix_model(scenario, problem.names)
-    mc = sobol_monte_carlo(problem, lambda x: total_model(x)[:, 0], n, seed=rng, conf=s.confidence)
+    def total(x: Array) -> Array:
+        y = total_model(x)[:, 0]
+        _refuse_landings_that_cannot_stop(y, scenario, "the Monte Carlo Sobol design")
+        return y
+
+    mc = sobol_monte_carlo(problem, total, n, seed=rng, conf=s.confidence)
     inputs = [InputRank(name, float(mc.first[i]), float(mc.total[i]),
                         (float(mc.first_ci[i, 0]), float(mc.first_ci[i, 1])),
                         (float(mc.total_ci[i, 0]), float(mc.total_ci[i, 1])), *swings[i],
@@ -546,6 +562,7 @@ def _fit_branches(scenario: Scenario, problem: Problem, s: RankSettings,
         models[b] = _matrix_model(scenario.with_values(**values) if values else scenario, cont_problem.names)
         xi = space.design(per_branch, seeds[b])
         y = models[b](space.to_inputs(xi))
+        _refuse_landings_that_cannot_stop(y[:, 0], scenario, "the polynomial-chaos surrogate's design")
         basis = None if not fits else (fits[order_of[0]].order, fits[order_of[0]].q_norm)
         fits[b] = fit_chaos(space, xi[:n_train], y[:n_train], _OUTPUTS, max_order=s.max_order,
                             order=s.order, basis=basis)
