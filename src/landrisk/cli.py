@@ -135,18 +135,21 @@ def solve(config: str | None, overrides: tuple[str, ...], as_json: bool, units: 
 
 
 class _ProgressBar:
-    """A one-line progress bar on stderr, for long runs in a terminal only."""
+    """A one-line progress bar on stderr, for long runs in a terminal only: over the samples of a run
+    (shown above ``least`` of them) or the cases of a study."""
 
-    def __init__(self, enabled: bool) -> None:
+    def __init__(self, enabled: bool, what: str = "samples", least: int = 1 << 16) -> None:
         self.enabled = enabled and sys.stderr.isatty()
+        self.what = what
+        self.least = least
         self.shown = False
 
     def __call__(self, done: int, total: int) -> None:
-        if not self.enabled or total <= (1 << 16):
+        if not self.enabled or total == 0 or total <= self.least:
             return
         width = 30
         filled = int(width * done / total)
-        sys.stderr.write(f"\r[{'#' * filled}{'.' * (width - filled)}] {done:,}/{total:,} samples")
+        sys.stderr.write(f"\r[{'#' * filled}{'.' * (width - filled)}] {done:,}/{total:,} {self.what}")
         sys.stderr.flush()
         self.shown = True
 
@@ -362,27 +365,6 @@ def calibrate(config: str, reference: str, overrides: tuple[str, ...], out_dir: 
         _echo(report.render_calibration(result, written))
 
 
-class _CaseBar:
-    """One progress bar over the cases and comparisons of a study, on stderr in a terminal only."""
-
-    def __init__(self, enabled: bool) -> None:
-        self.enabled = enabled and sys.stderr.isatty()
-        self.shown = False
-
-    def __call__(self, done: int, total: int) -> None:
-        if not self.enabled or total == 0:
-            return
-        width = 30
-        filled = int(width * done / total)
-        sys.stderr.write(f"\r[{'#' * filled}{'.' * (width - filled)}] {done}/{total} cases and comparisons")
-        sys.stderr.flush()
-        self.shown = True
-
-    def close(self) -> None:
-        if self.shown:
-            sys.stderr.write("\n")
-
-
 @main.command(epilog=_HELP_CAUTION)
 @click.argument("study_file", type=click.Path(dir_okay=False))
 @click.option("--out", "out_dir", type=click.Path(file_okay=False),
@@ -420,7 +402,7 @@ def study(study_file: str, out_dir: str | None, as_json: bool, workers: int | No
         if existing:
             raise LandriskError(f"{out_dir}: {existing[0]} exists; use --force to replace it (finished "
                                 "cases are reused from the cache)")
-    bar = _CaseBar(not quiet)
+    bar = _ProgressBar(not quiet, "cases and comparisons", least=0)
     try:
         result = api.study(study_file, seed=seed, samples=samples, workers=workers, use_dask=use_dask,
                            scheduler=scheduler, cache_dir=Path(out_dir) / "cache" if out_dir else None,
