@@ -64,7 +64,8 @@ def test_defaults_of_a_minimal_file() -> None:
 
 
 # Exact definitions: 1 kt = 1852/3600 m/s, 1 ft = 0.3048 m, 1 lb = 0.45359237 kg, 0 degC = 273.15 K,
-# 1 hPa = 100 Pa; 29.92 inHg -> 101 320.7 Pa (REFERENCES.md, pint).
+# 1 hPa = 100 Pa; 1 inHg = 3 386.389 Pa, so 29.92 inHg -> 101 320.7 Pa (NIST Special Publication 811,
+# Guide for the Use of the International System of Units, 2008, Appendix B.8).
 @pytest.mark.parametrize(
     ("key", "text", "expected"),
     [
@@ -89,7 +90,7 @@ def test_units_are_converted(key: str, text: str, expected: float) -> None:
 
 
 def test_units_module_against_exact_definitions() -> None:
-    # REFERENCES.md (pint): "135 kt" -> 69.45 m/s (1 kt = 1852/3600 m/s exactly), "29.92 inHg" ->
+    # NIST SP 811 (2008), Appendix B.8: "135 kt" -> 69.45 m/s (1 kt = 1852/3600 m/s exactly), "29.92 inHg" ->
     # 101 320.7 Pa, "141000 lb" -> 63 956.5 kg (1 lb = 0.45359237 kg exactly).
     from landrisk.units import convert, to_unit
 

@@ -39,7 +39,7 @@ def test_anderson_example_6_7_every_printed_value(anderson) -> None:
 
 
 def test_free_roll_at_constant_speed_without_deceleration(anderson) -> None:
-    # With no force along the runway the free roll is (V_TD - V_w) t (kinematics; DESIGN.md check value).
+    # With no force along the runway the free roll is (V_TD - V_w) t: uniform motion, x = v t (kinematics).
     for wind in (-5.0, 0.0, 12.0):
         case = replace(anderson, cd0=0.0, cl_ground=0.0, rolling_mu=0.0, headwind=wind, reaction_time=2.5)
         res = solve_landings(case)
@@ -73,7 +73,8 @@ def test_braking_matches_raymer_closed_form(anderson, thrust: float, cl: float) 
 
 
 def test_raymer_limit_without_aerodynamic_force(anderson) -> None:
-    # K_A -> 0: S = V^2 / (2 g |K_T|); V = 70 m/s, mu = 0.4 -> 624.58 m (REFERENCES.md).
+    # Raymer 2018, eqs. 17.100-17.104, in the limit K_A -> 0 (ln(1 + x) ~ x): S = V^2 / (2 g |K_T|);
+    # V = 70 m/s, mu = 0.4, g = 9.80665 m/s^2 -> 70^2 / (2 x 9.80665 x 0.4) = 624.58 m (computed here).
     case = replace(anderson, g=9.80665, reaction_time=0.0, cl_ground=0.0, cd0=0.0)
     vs = float(solve_landings(case).stall_speed[0])
     case = replace(case, touchdown_speed_ratio=70.0 / vs)
