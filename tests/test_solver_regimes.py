@@ -14,7 +14,7 @@ from scipy.integrate import quad
 from landrisk.errors import SolveError
 from landrisk.io import load_scenario
 from landrisk.model import solve_landings, solve_one
-from landrisk.model.solver import _extremes, _integrals
+from landrisk.model.solver import RUNAWAY_SPEED, _extremes, _integrals, _riccati
 from landrisk.testing.reference import reference_braking_quad, reference_free_roll, reference_ground_roll
 
 
@@ -180,3 +180,37 @@ def test_strong_retarding_idle_thrust_free_roll() -> None:
         assert res.free_roll_m[0] == pytest.approx(ref["free_roll_m"], rel=1e-9)
         assert res.time_to_stop_s[0] == pytest.approx(ref["time_to_stop_s"], rel=1e-9)
     assert r_light.total_m[0] < r_heavy.total_m[0]
+
+
+@pytest.mark.parametrize("b", [5.0, 20.0, 40.0])
+def test_riccati_with_linear_force_law_is_the_exponential(b: float) -> None:
+    # dV/dt = a + b V (c = 0): V(t) = r + (v0 - r) e^(b t), r = -a/b (the linear first-order ODE; e.g.
+    # Boyce & DiPrima, *Elementary Differential Equations*, 10th ed. 2012, section 2.1). The earlier form
+    # of the real-k branch cancelled 1 - g0/2k to rounding noise here (relative error ~ 1e-8 at b t = 20).
+    a, v0, tau = -9.80665, 60.0, 1.0
+    v, rate, _, blow = _riccati(*(np.array([x]) for x in (v0, tau, a, b, 0.0)))
+    r = -a / b
+    exact = r + (v0 - r) * np.exp(b * tau)
+    assert not blow[0]
+    assert v[0] == pytest.approx(exact, rel=1e-12)
+    assert rate[0] == pytest.approx(a + b * exact, rel=1e-12)
+
+
+def test_free_roll_speed_beyond_any_aircraft_is_a_runaway_not_nan() -> None:
+    # Found by the input-space fuzzing: 100 kg, idle t1 = 99 999 N s/m, no drag: the speed grows like
+    # e^(1000 t) over a 1 s free roll and overflowed into NaN distances; with a drag coefficient of 5e-186
+    # it settled at 3.5e190 m/s and braked "finitely" from there. Both are runaways past RUNAWAY_SPEED.
+    base = {"aircraft.mass": 100.0, "aircraft.wing_area": 1.0, "aircraft.wing_span": 2.0,
+            "aircraft.cl_max": 1.0, "aircraft.cl_ground": 0.0, "aircraft.thrust.idle.t0": 0.0,
+            "aircraft.thrust.idle.t1": 99_999.0, "aircraft.thrust.idle.t2": 0.0,
+            "runway.rolling_mu": 1.0, "runway.braking_mu": 1.0, "conditions.headwind": 0.0,
+            "procedure.reaction_time": 1.0}
+    for cd0 in (0.0, 4.7e-186):
+        for method in ("closed", "quadrature"):
+            res = solve_landings(_demo(**base, **{"aircraft.cd0": cd0}), method=method)
+            assert res.cannot_stop[0], (cd0, method)
+            assert np.isinf(res.free_roll_m[0]) and np.isinf(res.total_m[0]), (cd0, method)
+    # A modest forward idle thrust that speeds the aircraft up in the free roll still brakes to a stop.
+    res = solve_landings(_demo(**{"aircraft.thrust.idle.t0": 80_000.0}))
+    assert not res.cannot_stop[0] and res.brake_speed[0] > res.touchdown_speed[0]
+    assert res.brake_speed[0] < RUNAWAY_SPEED

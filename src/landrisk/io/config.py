@@ -414,6 +414,8 @@ def _typed(spec: Key, value: Any) -> Any:
         return value
     if not isinstance(value, str):
         raise ConfigError("must be text in quotes", key=spec.name, value=value)
+    if spec.choices and value not in spec.choices:
+        raise ConfigError("is not one of the choices", key=spec.name, value=value, allowed=spec.allowed())
     return value
 
 

@@ -42,6 +42,8 @@ class Key:
         ``quantity``, ``int``, ``bool`` or ``str``.
     required : bool
         Whether the file must give it.
+    choices : tuple of str
+        For a text key, the values it may take (empty: any text).
     doc : str
         Meaning, as shown in the starter file and the documentation.
     """
@@ -56,6 +58,7 @@ class Key:
     hi_open: bool = False
     kind: Kind = "quantity"
     required: bool = False
+    choices: tuple[str, ...] = ()
 
     @property
     def scalar(self) -> bool:
@@ -67,7 +70,7 @@ class Key:
         if self.kind == "bool":
             return "true or false"
         if self.kind == "str":
-            return "text"
+            return " or ".join(self.choices) if self.choices else "text"
         left = "(" if self.lo_open else "["
         right = ")" if self.hi_open else "]"
         rng = f"{left}{self.lo:g}, {self.hi:g}{right}"
@@ -112,6 +115,9 @@ _KEYS: list[Key] = [
     _k("scenario.name", "", "Short name of the scenario", default="unnamed", kind="str"),
     _k("scenario.description", "", "Free text: what the scenario is and where its data come from",
        default="", kind="str"),
+    _k("scenario.units", "", "How results are shown: si (m, m/s, kg) or aviation (ft, kt, lb); empty: "
+       "metres with feet beside them. --units overrides it; JSON stays SI", default="", kind="str",
+       choices=("si", "aviation")),
     # --- aircraft -------------------------------------------------------------------------------------
     _k("aircraft.name", "", "Name of the aircraft type (free text)", default="", kind="str"),
     _k("aircraft.mass", "kg", "Landing mass", lo=100.0, hi=700_000.0, required=True),

@@ -20,7 +20,8 @@ roll) for comparison and benchmarking.
 
 Where the deceleration is not negative over the whole braking range the aircraft cannot stop: its braking
 distance is infinite and the landing is flagged ``cannot_stop`` (so is a landing whose speed runs away in
-the free roll, thrust growing faster than drag: free roll, braking and time infinite). Where lift
+the free roll, thrust growing faster than drag, or passes :data:`RUNAWAY_SPEED` there: free roll, braking
+and time infinite). Where lift
 exceeds weight at touchdown
 the normal force is held at zero until it returns (no friction meanwhile) and the landing is flagged
 ``lift_exceeds_weight``; :func:`solve_one` refuses both.
@@ -68,6 +69,10 @@ RK4_MAX_STEP = 1.5
 RK4_KINK_STEP = 0.002
 #: Landings evaluated together (keeps the temporaries in cache; results do not depend on it).
 CHUNK = 1 << 14
+#: Brake-application airspeed [m/s] above which the free roll counts as a runaway (``cannot_stop``):
+#: 10 km/s, about 30 times the speed of sound at sea level, is beyond any aircraft, and beyond it the
+#: force law is far outside its domain (and its squares near the floating-point range).
+RUNAWAY_SPEED = 1.0e4
 
 _GL = {n: np.polynomial.legendre.leggauss(n) for n in (GAUSS_LEGENDRE_ORDER, FALLBACK_ORDER)}
 
@@ -510,7 +515,14 @@ def _riccati(
             # phi = (1 - e)/(2 k t).
             e = np.exp(-2.0 * x)
             phi = -np.expm1(-2.0 * x) / (2.0 * x)
-            den_r = (1.0 + e) - gj * tj * phi
+            # g0 tau phi = s (1 - e), s = g0 / 2k; then 2 e^(-kt) D = (1 - s) + e (1 + s), and for g0 > 0
+            # 1 - s = (4k^2 - g0^2) / (2k (2k + g0)) = -4 c q0 / (2k (2k + g0)): without the cancellation
+            # of 1 - s that would leave rounding noise where c q0 << g0^2 (a thrust that grows with
+            # speed faster than drag: D ~ e^(-2kt) then). D underflowing to 0 is a speed beyond the
+            # floating-point range before tau, flagged with the speeds that run to infinity.
+            s_ = 0.5 * gj / kk
+            one_minus_s = np.where(gj > 0, -4.0 * c[j] * qj / (2.0 * kk * (2.0 * kk + gj)), 1.0 - s_)
+            den_r = one_minus_s + e * (1.0 + s_)
             # Imaginary k: D = cos(kt) - g0/2 sin(kt)/k, valid while D > 0 (before its first zero).
             sn = np.sin(x) / kk
             d_i = np.cos(x) - 0.5 * gj * sn
@@ -831,7 +843,7 @@ def _solve_chunk(c: LandingCase, method: str) -> dict[str, NDArray]:
     t_free = c.reaction_time.copy()
     stopped = v_b <= w
     # Thrust above every retarding force and growing faster than drag: the speed runs to infinity.
-    runaway = ~(v_b < np.inf) & ~stopped
+    runaway = ~(v_b <= RUNAWAY_SPEED) & ~stopped
     cannot = runaway.copy()
     if stopped.any():
         i = np.flatnonzero(stopped)
