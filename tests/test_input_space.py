@@ -115,7 +115,9 @@ def _not_longer(shorter: float, longer: float) -> bool:
 
 common = settings(max_examples=200, deadline=None, derandomize=True,
                   suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much])
-many = settings(max_examples=5_000, deadline=None, derandomize=False,
+# Derandomized so that CI is reproducible; explore further with --hypothesis-seed=N and derandomize off
+# (seeds 1-9 of 5 000 examples each passed when this was written).
+many = settings(max_examples=5_000, deadline=None, derandomize=True,
                 suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much])
 
 
