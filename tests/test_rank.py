@@ -166,10 +166,11 @@ def _refuse(name: str) -> None:
 
 
 def test_cli_rank_monte_carlo_and_table() -> None:
-    r = run("rank", "configs/turboprop-grass-strip.toml", "--method", "mc", "--calls", "7000")
+    r = run("rank", "configs/turboprop-grass-strip.toml", "--method", "mc", "--calls", "7000",
+            "--set", 'scenario.units="aviation"')
     assert r.exit_code == 0, r.output
     for text in ("Monte Carlo pick-freeze", "first order", "swing of total", "overrun indicator",
-                 "not an operational or certified performance source"):
+                 " ft ", "not an operational or certified performance source"):
         assert text in r.output
 
 
@@ -245,6 +246,32 @@ def test_discrete_inputs_appear_in_every_figure_and_table(two_discrete) -> None:
     for table in (rank_table(r), overrun_profile_table(r)):
         names = list(table.iloc[:, 0])
         assert len(names) == len(set(names)) == r.problem.dimension
+
+
+def test_ranking_in_the_units_asked_for(two_discrete) -> None:
+    # 1 ft = 0.3048 m and 1 kt = 1852/3600 m/s exactly (NIST SP 811, 2008, appendix B.8).
+    from landrisk.export import rank_table
+    from landrisk.export.tables import overrun_profile_table
+    from landrisk.plotting import overrun_profile_figure, tornado_figure
+    from landrisk.report import render_rank
+
+    r, _ = two_discrete
+    si, ft = rank_table(r), rank_table(r, "aviation")
+    assert np.allclose(ft["swing_total [ft]"] * 0.3048, si["swing_total [m]"], rtol=1e-12)
+    p_si = overrun_profile_table(r).set_index("name")
+    p_av = overrun_profile_table(r, "aviation").set_index("name")
+    wind = "conditions.headwind"
+    assert p_si.loc[wind, "unit"] == "m/s" and p_av.loc[wind, "unit"] == "kt"
+    assert p_av.loc[wind, "prior_median"] == pytest.approx(p_si.loc[wind, "prior_median"] * 3600 / 1852)
+    assert p_av.loc[wind, "shift"] == pytest.approx(p_si.loc[wind, "shift"] * 3600 / 1852)
+    fig = tornado_figure(r, units="aviation")
+    assert "[ft]" in fig.axes[0].get_xlabel()
+    bars = sorted(abs(b.get_width()) for b in fig.axes[0].patches)
+    assert bars[-1] == pytest.approx(max(abs(i.swing_total_m) for i in r.inputs) / 0.3048)
+    assert "kt" in " ".join(ax.get_xlabel() for ax in overrun_profile_figure(r, units="aviation").axes)
+    text = render_rank(r, None, "aviation")
+    big = max(r.inputs, key=lambda i: abs(i.swing_total_m))
+    assert f"{big.swing_total_m / 0.3048:+.0f} ft" in text and " m " not in text.split("From ")[0]
 
 
 def test_discrete_indices_match_a_brute_force_variance_decomposition(two_discrete) -> None:

@@ -128,6 +128,8 @@ def test_method_that_does_not_converge_says_so(short_runway) -> None:
     assert not r.converged
     text = render_rare(r)
     assert "NO ESTIMATE - THE METHOD DID NOT CONVERGE" in text and "P(overrun) = " not in text
+    assert "LDA 1800 m (5906 ft)" in text  # 1800 m / 0.3048 m/ft (NIST SP 811, 2008, B.8)
+    assert "LDA 5906 ft" in render_rare(r, None, "aviation")
     from landrisk.export import rare_record
 
     assert rare_record(r)["p_overrun"] is None
@@ -136,12 +138,12 @@ def test_method_that_does_not_converge_says_so(short_runway) -> None:
 def test_cli_assess_rare_json_and_files(tmp_path) -> None:
     out = tmp_path / "rare"
     res = CliRunner().invoke(main, ["assess", "--method", "importance", "--set", 'runway.lda="2100 m"',
-                                    "--json", "--out", str(out)])
+                                    "--json", "--units", "aviation", "--out", str(out)])
     assert res.exit_code == 0, res.output
     data = json.loads(res.stdout, parse_constant=_refuse)  # RFC 8259: no NaN or Infinity
     json.loads((out / "summary.json").read_text(encoding="utf-8"), parse_constant=_refuse)
     curve_csv = pd.read_csv(out / "risk-curve.csv")  # plain CSV, the unit in the header
-    assert list(curve_csv.columns) == ["lda [m]", "p_overrun_subset", "p_overrun_mc"]
+    assert list(curve_csv.columns) == ["lda [ft]", "p_overrun_subset", "p_overrun_mc"]  # --units aviation
     for key in ("method", "cov", "model_calls", "beta", "design_point", "p_overrun", "p_overrun_ci95",
                 "lda_m", "seed", "samples", "sampler", "version", "inputs"):
         assert key in data, key
@@ -151,6 +153,8 @@ def test_cli_assess_rare_json_and_files(tmp_path) -> None:
                                                "risk-curve.svg"}
     curve = data["risk_curve"]
     assert min(curve["p_subset"]) <= 1e-8 and max(curve["p_subset"]) >= 1e-1
+    # The JSON stays SI; the table is in feet: 1 ft = 0.3048 m exactly (NIST SP 811, 2008, B.8).
+    assert np.allclose(curve_csv["lda [ft]"] * 0.3048, curve["lda_m"], rtol=1e-12)
 
 
 def _refuse(name: str) -> None:

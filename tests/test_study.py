@@ -218,6 +218,19 @@ def test_grid_study_rows_orderings_and_equal_to_single_assess(tmp_path: Path) ->
     cmp = next(c for c in r.comparisons if c.alternative == "aim | lda=1600 m, condition_code=2")
     assert cmp.paired.p_alt == pytest.approx(case2.p_overrun)
     assert cmp.paired.difference < 0 and cmp.paired.sd_paired < cmp.paired.sd_independent
+    # Units asked for: the distance columns in feet, named in their headers; 1 ft = 0.3048 m exactly
+    # (international foot; NIST SP 811, 2008, appendix B.8). The probabilities do not change.
+    si, ft = api.study_table(r), api.study_table(r, "aviation")
+    assert "p50 [m]" in si.columns and "p50 [ft]" in ft.columns and "p50_m" not in si.columns
+    assert np.allclose(ft["p50 [ft]"] * 0.3048, si["p50 [m]"], rtol=1e-12)
+    assert ft["p_overrun"].tolist() == si["p_overrun"].tolist()
+    from landrisk.report import render_study
+
+    text = render_study(r, None, "aviation")
+    assert "p50 ft" in text and "p50 m" not in text
+    row = next(x for x in r.cases if x.name == "none | lda=1900 m, condition_code=3")
+    p50 = next(q.value for q in row.percentiles if q.p == 50.0)
+    assert f"{round(p50 / 0.3048)}" in text
 
 
 # ------------------------------------------------------------------------------------- study file errors

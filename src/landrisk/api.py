@@ -386,11 +386,11 @@ def study_record(r: StudyResult) -> dict[str, Any]:
     return records.study_record(r)
 
 
-def study_table(r: StudyResult) -> pd.DataFrame:
+def study_table(r: StudyResult, units: str | None = None) -> pd.DataFrame:
     """One row per case of a study: its overrides, method, P(overrun) with interval, yearly figures."""
     from landrisk.export import study as records
 
-    return records.study_table(r)
+    return records.study_table(r, units)
 
 
 def write_study(r: StudyResult, folder: str | Path, **options: Any) -> list[Path]:

@@ -243,7 +243,7 @@ def assess(config: str | None, samples: int, seed: int, sampler: str, method: st
         if as_json:
             _echo(api.dumps(api.rare_record(rare)))
         else:
-            _echo(report.render_rare(rare, rare_written))
+            _echo(report.render_rare(rare, rare_written, shown))
         return
     bar = _ProgressBar(not quiet)
     options: dict[str, Any] = {"samples": samples, "seed": seed, "sampler": sampler, "progress": bar}
@@ -303,10 +303,11 @@ def _order(value: str) -> int | None:
                    "overrun-profile figures to this folder.")
 @click.option("--force", is_flag=True, help="Replace existing output files.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of the table.")
+@_units_option
 @_report_option
 @_reported
 def rank(config: str | None, method: str, order: str, calls: int | None, seed: int, mc_check: int,
-         overrides: tuple[str, ...], out_dir: str | None, force: bool, as_json: bool,
+         overrides: tuple[str, ...], out_dir: str | None, force: bool, as_json: bool, units: str | None,
          with_report: bool) -> None:
     """Rank the uncertain inputs by their influence on the landing distance and on the overrun.
 
@@ -322,15 +323,17 @@ def rank(config: str | None, method: str, order: str, calls: int | None, seed: i
     if with_report and not out_dir:
         raise click.UsageError("--report needs --out DIR")
     scenario, uncertain = api.load_study(config, overrides)
+    shown = api.display_units(scenario, units)
     result = api.rank(scenario, uncertain, method=method, calls=calls, order=_order(order), seed=seed,
                       mc_check=mc_check if method == "pce" else 0)
-    written = ([str(p) for p in api.write_ranking(result, out_dir, force=force, command=_command_line())]
+    written = ([str(p) for p in api.write_ranking(result, out_dir, force=force, units=shown,
+                                                  command=_command_line())]
                if out_dir else None)
     _write_report(out_dir, with_report, written, force)
     if as_json:
         _echo(api.dumps({k: v for k, v in api.ranking_record(result).items() if k != "scenario_text"}))
     else:
-        _echo(report.render_rank(result, written))
+        _echo(report.render_rank(result, written, shown))
 
 
 @main.command(epilog=_HELP_CAUTION)
@@ -381,9 +384,11 @@ def calibrate(config: str, reference: str, overrides: tuple[str, ...], out_dir: 
               help="Replace the study's Monte Carlo samples per case.")
 @click.option("--force", is_flag=True, help="Replace existing output files.")
 @click.option("--quiet", is_flag=True, help="No progress bar.")
+@_units_option
 @_reported
 def study(study_file: str, out_dir: str | None, as_json: bool, workers: int | None, use_dask: bool,
-          scheduler: str | None, seed: int | None, samples: int | None, force: bool, quiet: bool) -> None:
+          scheduler: str | None, seed: int | None, samples: int | None, force: bool, quiet: bool,
+          units: str | None) -> None:
     """Many cases of one scenario: P(overrun) per case, paired comparisons and the yearly risk.
 
     STUDY_FILE names a base scenario and [[case]] tables and/or a [grid] of overrides (any key, and
@@ -409,12 +414,14 @@ def study(study_file: str, out_dir: str | None, as_json: bool, workers: int | No
                            progress=bar)
     finally:
         bar.close()
-    written = [str(p) for p in api.write_study(result, out_dir, force=True)] if out_dir else None
+    shown = api.display_units(result.base, units) if result.base is not None else units
+    written = ([str(p) for p in api.write_study(result, out_dir, force=True, units=shown)]
+               if out_dir else None)
     if as_json:
         record = {k: v for k, v in api.study_record(result).items() if not k.endswith("_text")}
         _echo(api.dumps(record))
     else:
-        _echo(report.render_study(result, written))
+        _echo(report.render_study(result, written, shown))
 
 
 @main.command("report", epilog=_HELP_CAUTION)

@@ -307,21 +307,28 @@ def figure_bytes(fig: Figure, fmt: str, record: dict[str, Any], *, close: bool =
     return buf.getvalue()
 
 
-def _display_unit(name: str) -> tuple[float, str]:
-    """(factor, unit) to show a key's SI value in the unit a scenario file uses for it (kt for speeds)."""
-    unit = KEYS[name].unit.replace("**", "^") if name in KEYS else ""
+def _display_unit(name: str, units: str | None = None) -> tuple[Callable[[Any], Any], str]:
+    """(convert, unit) to show a key's SI value: in the unit system ``units`` (``si``, ``aviation``), or
+    (None) in the unit a scenario file uses for it, kt for speeds."""
+    unit = KEYS[name].unit if name in KEYS else ""
+    if units:
+        du = DisplayUnits(units)
+        kind, sym = du.key_unit(unit)
+        if kind is not None:
+            return (lambda v, du=du, kind=kind: du.value(kind, v)), sym
+        return (lambda v: v), sym
     if unit == "m/s":
-        return 3600.0 / 1852.0, "kt"  # 1 kt = 1852 m / 3600 s (exact by definition)
-    return 1.0, unit
+        return (lambda v: np.asarray(v) * (3600.0 / 1852.0)), "kt"  # 1 kt = 1852 m / 3600 s (exact)
+    return (lambda v: v), unit.replace("**", "^")
 
 
-def _value_text(name: str, v: float) -> str:
+def _value_text(name: str, v: float, units: str | None = None) -> str:
     """A value in its key's type and display unit: ``True``, ``3``, ``12 kt``, ``420 m``."""
     spec = KEYS.get(name)
     if spec is not None and spec.unit in ("", "1") and isinstance(spec.cast(v), bool | int):
         return str(spec.cast(v))
-    factor, unit = _display_unit(name)
-    shown = v * factor
+    conv, unit = _display_unit(name, units)
+    shown = float(conv(v))
     text = f"{shown:,.0f}" if abs(shown) >= 1e4 else f"{shown:.4g}"
     return f"{text} {unit}".rstrip()
 
@@ -377,16 +384,19 @@ def indices_figure(r: Ranking) -> Figure:
 
 
 @styled
-def tornado_figure(r: Ranking) -> Figure:
+def tornado_figure(r: Ranking, units: str | None = None) -> Figure:
     """One-at-a-time swings of the total distance and of the margin to the LDA, largest first; a discrete
-    input from its least to its greatest value."""
+    input from its least to its greatest value (``units``: ``si`` or ``aviation``; default metres and the
+    scenario file's units)."""
     plt = _pyplot()
+    du = DisplayUnits(units or "si")
+    lu = du.unit("length")
     rows = sorted((i for i in r.inputs if np.isfinite(i.swing_total_m)), key=lambda i: -abs(i.swing_total_m))
     fig, axes = plt.subplots(1, 2, figsize=(10.5, 0.55 * len(rows) + 2.4), sharey=True)
     y = np.arange(len(rows))
-    for ax, attr, axis_label in ((axes[0], "swing_total_m", "change of the total distance [m]"),
-                                 (axes[1], "swing_margin_m", "change of the margin to the LDA [m]")):
-        vals = [getattr(i, attr) for i in rows]
+    for ax, attr, axis_label in ((axes[0], "swing_total_m", f"change of the total distance [{lu}]"),
+                                 (axes[1], "swing_margin_m", f"change of the margin to the LDA [{lu}]")):
+        vals = [du.length(getattr(i, attr)) for i in rows]
         worse = [v > 0 for v in vals] if attr == "swing_total_m" else [v < 0 for v in vals]
         ax.barh(y, vals, color=[OKABE_ITO[1] if w else OKABE_ITO[0] for w in worse],
                 hatch=["//" if w else "" for w in worse], edgecolor="black", lw=0.4)
@@ -395,7 +405,7 @@ def tornado_figure(r: Ranking) -> Figure:
         ax.grid(True, axis="x", alpha=0.3)
 
     def label(i: Any) -> str:
-        return f"{i.name}\n{_value_text(i.name, i.p5)} to {_value_text(i.name, i.p95)}"
+        return f"{i.name}\n{_value_text(i.name, i.p5, units)} to {_value_text(i.name, i.p95, units)}"
 
     axes[0].set_yticks(y, [label(i) for i in rows], fontsize=7)
     axes[0].invert_yaxis()
@@ -406,9 +416,10 @@ def tornado_figure(r: Ranking) -> Figure:
 
 
 @styled
-def overrun_profile_figure(r: Ranking) -> Figure:
+def overrun_profile_figure(r: Ranking, units: str | None = None) -> Figure:
     """Small multiples: each input's distribution given an overrun beside its prior, with both medians, in
-    the unit the scenario file uses (kt for speeds); a discrete input as bars per value."""
+    the unit the scenario file uses (kt for speeds) or of the system ``units``; a discrete input as bars
+    per value."""
     plt = _pyplot()
     o = r.overrun
     d = r.problem.dimension
@@ -418,7 +429,7 @@ def overrun_profile_figure(r: Ranking) -> Figure:
     enough = o is not None and o.effective_events >= 30
     for k, name in enumerate(r.problem.names):
         ax = axes[k // cols][k % cols]
-        factor, unit = _display_unit(name)
+        conv, unit = _display_unit(name, units)
         m = r.problem.marginals[k]
         if o is None:
             ax.set_axis_off()
@@ -430,22 +441,21 @@ def overrun_profile_figure(r: Ranking) -> Figure:
             ax.bar(xk - 0.2, [p for _, p, _ in row.levels], width=0.4, label="all landings")
             if enough:
                 ax.bar(xk + 0.2, [q for _, _, q in row.levels], width=0.4, color="tab:red", label="overruns")
-            ax.set_xticks(xk, [_value_text(name, v) for v in vals], fontsize=7)
+            ax.set_xticks(xk, [_value_text(name, v, units) for v in vals], fontsize=7)
             ax.set_ylabel("probability", fontsize=7)
         else:
-            prior = o.prior_x[:, k] * factor
+            prior = np.asarray(conv(o.prior_x[:, k]), dtype=float)
             lo, hi = np.quantile(prior, [0.001, 0.999])
             if enough:
-                lo = min(lo, float(np.min(o.overrun_x[:, k])) * factor)
-                hi = max(hi, float(np.max(o.overrun_x[:, k])) * factor)
+                lo = min(lo, float(conv(float(np.min(o.overrun_x[:, k])))))
+                hi = max(hi, float(conv(float(np.max(o.overrun_x[:, k])))))
             bins = np.linspace(lo, hi, 40)
             ax.hist(prior, bins=bins, density=True, alpha=0.5, histtype="stepfilled", label="all landings")
-            ax.axvline(row.prior_median * factor, color="tab:blue", ls="--", lw=1)
+            ax.axvline(float(conv(row.prior_median)), color="tab:blue", ls="--", lw=1)
             if enough and row.overrun_median is not None:
-                ax.hist(o.overrun_x[:, k] * factor, bins=bins, weights=o.overrun_w, density=True, alpha=0.6,
-                        histtype="stepfilled",
-                        color="tab:red", label="overruns")
-                ax.axvline(row.overrun_median * factor, color="tab:red", ls="--", lw=1)
+                ax.hist(np.asarray(conv(o.overrun_x[:, k]), dtype=float), bins=bins, weights=o.overrun_w,
+                        density=True, alpha=0.6, histtype="stepfilled", color="tab:red", label="overruns")
+                ax.axvline(float(conv(row.overrun_median)), color="tab:red", ls="--", lw=1)
             ax.set_yticks([])
             ax.set_xlabel(f"[{unit}]" if unit else "", fontsize=7)
         ax.set_title(name, fontsize=8)
@@ -464,9 +474,11 @@ def overrun_profile_figure(r: Ranking) -> Figure:
 
 
 @styled
-def surrogate_exceedance_figure(r: Ranking) -> Figure:
+def surrogate_exceedance_figure(r: Ranking, units: str | None = None) -> Figure:
     """Exceedance curve of the total distance from the surrogate, beside the Monte Carlo check's."""
     plt = _pyplot()
+    du = DisplayUnits(units or "si")
+    lu = du.unit("length")
     fig, ax = plt.subplots(figsize=(8, 5))
     curves = [("surrogate", r.surrogate.sorted_total_m if r.surrogate is not None else None)]
     if r.mc_check is not None:
@@ -479,12 +491,13 @@ def surrogate_exceedance_figure(r: Ranking) -> Figure:
         grid = np.linspace(xs[0], xs[-1], 600)
         p, _, _ = exceedance_curve(xs, grid)
         keep = p > 0
-        ax.step(grid[keep], p[keep], where="post", label=label)
+        ax.step(du.length(grid[keep]), p[keep], where="post", label=label)
         floor = min(floor, 0.5 / xs.size)
-    runway_marks(ax, float(r.scenario.values["runway.lda"]), r.scenario.values.get("runway.resa_length"))
+    resa = r.scenario.values.get("runway.resa_length")
+    runway_marks(ax, du.length(float(r.scenario.values["runway.lda"])), du.length(resa) if resa else None, lu)
     ax.set_yscale("log")
     ax.set_ylim(floor, 1)
-    ax.set_xlabel("total landing distance from the screen height x [m]")
+    ax.set_xlabel(f"total landing distance from the screen height x [{lu}]")
     ax.set_ylabel("probability that the distance exceeds x")
     passed = r.tail is not None and r.tail.passed
     verdict = "passed" if passed else "FAILED: the surrogate's tail is not reliable"
@@ -495,42 +508,47 @@ def surrogate_exceedance_figure(r: Ranking) -> Figure:
     return fig
 
 
-#: file stem -> figure function, for a ranking (the exceedance figure only with polynomial chaos)
-RANK_FIGURES = {"indices": indices_figure, "tornado": tornado_figure,
-                "overrun-profile": overrun_profile_figure,
-                "surrogate-exceedance": surrogate_exceedance_figure}
+#: file stem -> figure function, for a ranking (the exceedance figure only with polynomial chaos); all but
+#: the indices take ``units``
+RANK_FIGURES: dict[str, Callable[..., Figure]] = {"indices": indices_figure, "tornado": tornado_figure,
+                                                  "overrun-profile": overrun_profile_figure,
+                                                  "surrogate-exceedance": surrogate_exceedance_figure}
 
 
 @styled
-def risk_curve_figure(r: RareAssessment) -> Figure:
+def risk_curve_figure(r: RareAssessment, units: str | None = None) -> Figure:
     """P(overrun) against the landing distance available, one curve per method, on a log axis; the subset
     curve with its interval band, drawn only where every replicate reached it; the estimate at the LDA
-    with its interval, or a hollow marker labelled as such where the method did not converge."""
+    with its interval, or a hollow marker labelled as such where the method did not converge (``units``:
+    the length axis in ``si`` or ``aviation`` units)."""
     plt = _pyplot()
+    du = DisplayUnits(units or "si")
+    lu = du.unit("length")
     rc = r.risk_curve
     assert rc is not None
     fig, ax = plt.subplots(figsize=(8, 5.2))
     ok = rc.converged & (rc.p_subset > 0)
     p_ok = np.where(ok, rc.p_subset, np.nan)
-    ax.plot(rc.lda_m, p_ok, label=f"subset simulation ({rc.subset_calls:,} solver calls)")
-    ax.fill_between(rc.lda_m, np.where(ok, np.maximum(rc.ci_lo, 1e-12), np.nan),
+    ax.plot(du.length(rc.lda_m), p_ok, label=f"subset simulation ({rc.subset_calls:,} solver calls)")
+    ax.fill_between(du.length(rc.lda_m), np.where(ok, np.maximum(rc.ci_lo, 1e-12), np.nan),
                     np.where(ok, rc.ci_hi, np.nan),
                     alpha=0.25, label=f"{100 * r.settings.confidence:g} % interval over the replicates")
-    ax.plot(rc.lda_m, rc.p_mc, lw=2.5, alpha=0.6, label=f"Monte Carlo ({rc.mc_samples:,} samples)")
+    ax.plot(du.length(rc.lda_m), rc.p_mc, lw=2.5, alpha=0.6, label=f"Monte Carlo ({rc.mc_samples:,} samples)")
     pts = np.array(rc.form_points)
-    ax.plot(pts[:, 0], pts[:, 1], "s", label=f"FORM ({rc.form_calls:,} calls)")
-    lda = float(r.scenario.values["runway.lda"])
-    runway_marks(ax, lda, r.scenario.values.get("runway.resa_length"))
+    ax.plot(du.length(pts[:, 0]), pts[:, 1], "s", label=f"FORM ({rc.form_calls:,} calls)")
+    lda = du.length(float(r.scenario.values["runway.lda"]))
+    resa = r.scenario.values.get("runway.resa_length")
+    runway_marks(ax, lda, du.length(resa) if resa else None, lu)
     if r.converged and r.probability > 0:
         ax.errorbar([lda], [r.probability], yerr=[[r.probability - r.ci[0]], [r.ci[1] - r.probability]],
                     fmt="o", color="black", capsize=4,
-                    label=f"{r.method} at the LDA {lda:.0f} m: {r.probability:.2e}")
+                    label=f"{r.method} at the LDA {lda:.0f} {lu}: {r.probability:.2e}")
     elif r.probability > 0:
         ax.plot([lda], [r.probability], "o", mfc="none", color="red",
-                label=f"{r.method} at the LDA {lda:.0f} m: NOT CONVERGED, no estimate")
+                label=f"{r.method} at the LDA {lda:.0f} {lu}: NOT CONVERGED, no estimate")
     ax.set_yscale("log")
     ax.set_ylim(1e-10, 1)
-    ax.set_xlabel("landing distance available [m]")
+    ax.set_xlabel(f"landing distance available [{lu}]")
     ax.set_ylabel("probability of an overrun per landing")
     ax.set_title(f"Overrun risk against runway length: {r.scenario.name}", fontsize=9)
     ax.grid(True, which="both", alpha=0.3)

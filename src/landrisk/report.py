@@ -295,9 +295,12 @@ def render_assess(a: Assessment, written: list[str] | None = None, units: str | 
 _TAIL_FAILED = "FAILED - the surrogate's P99 and P(overrun) are not reliable"
 
 
-def render_rank(r: Ranking, written: list[str] | None = None) -> str:
-    """The ranking of the uncertain inputs as a readable table."""
+def render_rank(r: Ranking, written: list[str] | None = None, units: str | None = None) -> str:
+    """The ranking of the uncertain inputs as a readable table (``units``: distances in ``si`` or
+    ``aviation`` units; default metres, and each input in its scenario-file unit)."""
     s = r.scenario
+    show = _Show(units)
+    lu = show.lu
     lines = [
         f"landrisk {__version__} - which uncertain inputs drive the landing distance and the overrun",
         f"Scenario: {s.name} ({s.source})" + (f" with {', '.join(s.overrides)}" if s.overrides else ""),
@@ -309,7 +312,8 @@ def render_rank(r: Ranking, written: list[str] | None = None) -> str:
             f"branch, {c.branches} branch(es); {r.calls} solver calls ({c.training_calls} training + "
             f"{c.holdout_calls} hold-out per branch)",
             f"  hold-out error of the total distance: {100 * c.holdout_rel_error:.2f} % of its sd (RMS), "
-            f"largest {c.holdout_max_error_m:.1f} m ({100 * c.holdout_max_rel_error:.2f} %)",
+            f"largest {show.du.length(c.holdout_max_error_m):.1f} {lu} "
+            f"({100 * c.holdout_max_rel_error:.2f} %)",
         ]
     else:
         lines.append(f"Method: Monte Carlo pick-freeze (Saltelli 2010 first order, Jansen total), "
@@ -320,7 +324,8 @@ def render_rank(r: Ranking, written: list[str] | None = None) -> str:
     lines += ["", header]
     for i in r.inputs:
         ci = f"  [{i.total_ci[0]:.3f}, {i.total_ci[1]:.3f}]" if i.total_ci else ""
-        sw = (f"{i.swing_total_m:+14.0f} m{i.swing_margin_m:+15.0f} m" if np.isfinite(i.swing_total_m)
+        sw = (f"{show.du.length(i.swing_total_m):+14.0f} {lu:<2}"
+              f"{show.du.length(i.swing_margin_m):+14.0f} {lu}" if np.isfinite(i.swing_total_m)
               else f"{'-':>16}{'-':>17}")
         sh = f"{shap[i.name]:9.3f}" if i.name in shap else ""
         lines.append(f"  {i.name:<34}{i.first:12.3f}{i.total:9.3f}{sh}{sw}{ci}")
@@ -336,8 +341,8 @@ def render_rank(r: Ranking, written: list[str] | None = None) -> str:
         pairs = ", ".join(f"{a} x {b} {v:.3f}" for a, b, v in r.second_order)
         lines.append(f"  largest interactions: {pairs}")
     if r.surrogate is not None and r.tail is not None:
-        lines += _surrogate_lines(r)
-    lines += _overrun_lines(r)
+        lines += _surrogate_lines(r, show)
+    lines += _overrun_lines(r, units)
     return _closing(lines, r.warnings, written)
 
 
@@ -375,33 +380,39 @@ def _rare_branch_line(b: Any) -> str:
     return f"    {label} (probability {b.probability:g}): {e.probability:.3e}{ci}{extra}, {e.calls:,} calls"
 
 
-def _surrogate_lines(r: Ranking) -> list[str]:
+def _surrogate_lines(r: Ranking, sh: _Show) -> list[str]:
     """The surrogate's figures, its tail check and the Monte Carlo check."""
     sur, t = r.surrogate, r.tail
     assert sur is not None and t is not None
     by = {p.p: p for p in sur.percentiles}
-    lines = ["", f"From {sur.samples:,} surrogate samples: mean {sur.mean_m:.1f} m, sd "
-             f"{sur.sd_m:.1f} m, P50 {by[50.0].value:.1f} m, P99 {by[99.0].value:.1f} m, "
+
+    def d1(metres: float | None) -> str:
+        return "-" if metres is None else f"{sh.du.length(metres):.1f} {sh.lu}"
+
+    lines = ["", f"From {sur.samples:,} surrogate samples: mean {d1(sur.mean_m)}, sd "
+             f"{d1(sur.sd_m)}, P50 {d1(by[50.0].value)}, P99 {d1(by[99.0].value)}, "
              f"P(overrun) {sur.p_overrun.text()}"]
     if r.mc_check is not None:
         m = r.mc_check
         d = m.rel_diff
-        lines.append(f"  Monte Carlo check ({m.samples:,} solver runs): mean {m.mean_m:.1f} m "
-                     f"({100 * d['mean']:+.2f} %), sd {m.sd_m:.1f} m ({100 * d['sd']:+.2f} %), P50 "
-                     f"{m.p50_m:.1f} m ({100 * d['p50']:+.2f} %), P99 {m.p99_m:.1f} m "
+        lines.append(f"  Monte Carlo check ({m.samples:,} solver runs): mean {d1(m.mean_m)} "
+                     f"({100 * d['mean']:+.2f} %), sd {d1(m.sd_m)} ({100 * d['sd']:+.2f} %), P50 "
+                     f"{d1(m.p50_m)} ({100 * d['p50']:+.2f} %), P99 {d1(m.p99_m)} "
                      f"({100 * d['p99']:+.2f} %), P(overrun) {m.p_overrun.text()}")
     verdict = "passed" if t.passed else _TAIL_FAILED
     lines.append(f"  tail check: {verdict}")
     if t.p99_surrogate is not None and t.p99_mc is not None:
         a, b = t.p99_surrogate, t.p99_mc
-        lines.append(f"    P99: surrogate {a[0]:.1f} m [{a[1]:.1f}, {a[2]:.1f}], real solver {b[0]:.1f} m "
-                     f"[{b[1]:.1f}, {b[2]:.1f}]: " + ("intervals meet" if t.p99_passed else "DISAGREE"))
+        a, b = tuple(sh.du.length(x) for x in a), tuple(sh.du.length(x) for x in b)
+        lines.append(f"    P99: surrogate {a[0]:.1f} {sh.lu} [{a[1]:.1f}, {a[2]:.1f}], real solver "
+                     f"{b[0]:.1f} {sh.lu} [{b[1]:.1f}, {b[2]:.1f}]: "
+                     + ("intervals meet" if t.p99_passed else "DISAGREE"))
     if t.p_overrun_surrogate is not None and t.p_overrun_mc is not None:
         a, b = t.p_overrun_surrogate, t.p_overrun_mc
         lines.append(f"    P(overrun): surrogate {a[0]:.2e} [{a[1]:.2e}, {a[2]:.2e}], real solver {b[0]:.2e} "
                      f"[{b[1]:.2e}, {b[2]:.2e}]: " + ("intervals meet" if t.p_overrun_passed else "DISAGREE"))
     lines.append(f"    real solver on {t.calls} surrogate samples in the tail and near the runway end: error "
-                 f"band {t.band_m:.1f} m (twice the RMS error near the runway end); "
+                 f"band {d1(t.band_m)} (twice the RMS error near the runway end); "
                  f"{t.misclassified_overruns} of {t.near_runway_end} near the runway end on the wrong side "
                  f"by more than the band ({t.misclassified_within_band} more within it)")
     if t.note:
@@ -419,18 +430,18 @@ def _level(key: str, v: float) -> str:
 _DIMENSIONLESS = ("sigma_log", "shape", "alpha", "beta")
 
 
-def _change(key: str, parameter: str, change: float) -> str:
+def _change(key: str, parameter: str, change: float, units: str | None = None) -> str:
     """A parameter's stated change, in the key's display unit where the parameter has it."""
     if parameter in _DIMENSIONLESS or parameter.startswith("P("):
         return f"{change:+.3g}"
-    return "+" + _show(key, change)
+    return "+" + _show(key, change, units, difference=True)
 
 
 def _fmt_index(v: float | None) -> str:
     return "-" if v is None else (f"{v:.3f}" if v >= 0.01 else f"{v:.1e}")
 
 
-def _overrun_lines(r: Ranking) -> list[str]:
+def _overrun_lines(r: Ranking, units: str | None = None) -> list[str]:
     """Influence on the overrun: indicator indices, the overrun profile, parameter sensitivities."""
     o = r.overrun
     if o is None:
@@ -442,9 +453,9 @@ def _overrun_lines(r: Ranking) -> list[str]:
     pairs = sorted(zip(o.profile, o.indices, strict=True),
                    key=lambda t: -(t[1].first_order if t[1].first_order is not None else -1.0))
     for p, i in pairs:
-        med = _level(p.name, p.prior_median) if p.discrete else _show(p.name, p.prior_median)
+        med = _level(p.name, p.prior_median) if p.discrete else _show(p.name, p.prior_median, units)
         given = "-" if p.overrun_median is None else (
-            _level(p.name, p.overrun_median) if p.discrete else _show(p.name, p.overrun_median))
+            _level(p.name, p.overrun_median) if p.discrete else _show(p.name, p.overrun_median, units))
         ci = f"[{_fmt_index(i.ci[0])}, {_fmt_index(i.ci[1])}]" if i.ci else "-"
         a2 = r.form_importance.get(p.name)
         lines.append(f"  {p.name:<34}{med:>14}{given:>15}{_fmt_index(i.first_order):>19}  {ci:<20}"
@@ -465,7 +476,8 @@ def _overrun_lines(r: Ranking) -> list[str]:
         lines += ["", "What to control: change of P(overrun) for a stated change of each distribution "
                   "parameter (score function, first order)"]
         for q in sorted(o.sensitivity, key=lambda q: -abs(q.dp)):
-            lines.append(f"  {q.input:<34}{q.parameter:<11}{_change(q.input, q.parameter, q.change):>12} -> "
+            change = _change(q.input, q.parameter, q.change, units)
+            lines.append(f"  {q.input:<34}{q.parameter:<11}{change:>12} -> "
                          f"{q.dp:+.2e} "
                          f"[{q.ci[0]:+.1e}, {q.ci[1]:+.1e}] ({100 * q.dp / o.p_overrun:+.1f} %)")
         lines.append("  (change: a tenth of the input's spread for a mean, median or mode, a tenth of the "
@@ -474,9 +486,11 @@ def _overrun_lines(r: Ranking) -> list[str]:
     return lines
 
 
-def render_rare(r: RareAssessment, written: list[str] | None = None) -> str:
-    """A rare-event assessment: the probability with its interval, cost, design point and risk curve."""
+def render_rare(r: RareAssessment, written: list[str] | None = None, units: str | None = None) -> str:
+    """A rare-event assessment: the probability with its interval, cost, design point and risk curve
+    (``units``: see the module)."""
     s = r.scenario
+    show = _Show(units)
     conf = f"{100 * r.settings.confidence:g} %"
     lda = float(s.values["runway.lda"])
     lines = [
@@ -485,7 +499,7 @@ def render_rare(r: RareAssessment, written: list[str] | None = None) -> str:
         f"Method: {_METHOD_NAMES[r.method]}; seed {r.settings.seed}; {r.calls:,} solver calls",
         _rare_settings_line(r),
         "",
-        f"Runway: LDA {lda:.0f} m ({convert(lda, 'm', 'ft'):.0f} ft)",
+        f"Runway: LDA {show.dist(lda)}",
     ]
     beta = f", generalised beta {r.beta:.3f}" if r.beta is not None and math.isfinite(r.beta) else ""
     if not r.converged:
@@ -517,8 +531,8 @@ def render_rare(r: RareAssessment, written: list[str] | None = None) -> str:
                   "importance alpha^2:"]
         for k, v in r.design_point.items():
             a2 = r.importance.get(k)
-            shown = _show(k, v)
-            nominal = _show(k, s.values[k]) if s.values.get(k) is not None else "-"
+            shown = _show(k, v, units)
+            nominal = _show(k, s.values[k], units) if s.values.get(k) is not None else "-"
             tail = f"   alpha^2 {a2:.3f}" if a2 is not None else ""
             lines.append(f"  {k:<34}{shown:>16}   (nominal {nominal}){tail}")
     if r.risk_curve is not None:
@@ -528,23 +542,38 @@ def render_rare(r: RareAssessment, written: list[str] | None = None) -> str:
         for target in (1e-3, 1e-5, 1e-7, 1e-9):
             i = int(np.argmin(np.abs(np.log(np.maximum(rc.p_subset, 1e-300)) - np.log(target))))
             if rc.converged[i]:
-                lines.append(f"  {rc.lda_m[i]:8.0f} m: {rc.p_subset[i]:.1e} [{rc.ci_lo[i]:.1e}, "
-                             f"{rc.ci_hi[i]:.1e}]")
+                lines.append(f"  {show.du.length(rc.lda_m[i]):8.0f} {show.lu}: {rc.p_subset[i]:.1e} "
+                             f"[{rc.ci_lo[i]:.1e}, {rc.ci_hi[i]:.1e}]")
             else:
-                lines.append(f"  {rc.lda_m[i]:8.0f} m: not reached by every replicate (no estimate)")
+                lines.append(f"  {show.du.length(rc.lda_m[i]):8.0f} {show.lu}: not reached by every "
+                             "replicate (no estimate)")
     return _closing(lines, r.messages, written)
 
 
-def _show(key: str, value: object) -> str:
-    """A value in a readable unit: kt for speeds, m, s, kg, or as is."""
+def _show(key: str, value: object, units: str | None = None, difference: bool = False) -> str:
+    """A value in a readable unit: in the system ``units`` (``si``, ``aviation``), else kt for speeds
+    and the key's own unit (m, s, kg); ``difference``: a change of the value (no temperature offset)."""
     from landrisk.model import KEYS
 
     if isinstance(value, bool) or not isinstance(value, int | float):
         return str(value)
     unit = KEYS[key].unit if key in KEYS else ""
+    if units:
+        du = DisplayUnits(units)
+        kind, sym = du.key_unit(unit)
+        if kind is None:
+            return f"{_num(value)} {sym}".rstrip()
+        if difference and kind == "temperature":  # a change of 1 K is a change of 1 degC
+            return f"{_num(value)} {sym}"
+        return f"{_num(du.value(kind, float(value)))} {sym}"
     if unit == "m/s":
         return f"{convert(float(value), 'm/s', 'kt'):.1f} kt"
-    return f"{value:.4g} {unit}".rstrip()
+    return f"{_num(value)} {unit}".rstrip()
+
+
+def _num(x: float) -> str:
+    """Four significant digits, or a whole number with thousands separators from 10 000 up."""
+    return f"{x:,.0f}" if abs(x) >= 1e4 else f"{x:.4g}"
 
 
 def render_calibration(c: Calibration, written: list[str] | None = None) -> str:
@@ -598,9 +627,12 @@ def render_epistemic(e: EpistemicAssessment) -> str:
     return "\n".join(lines)
 
 
-def render_study(r: StudyResult, written: list[str] | None = None) -> str:
-    """A study: P(overrun) per case, the paired comparisons and the yearly risk."""
+def render_study(r: StudyResult, written: list[str] | None = None, units: str | None = None) -> str:
+    """A study: P(overrun) per case, the paired comparisons and the yearly risk (``units``: distances
+    in ``si`` or ``aviation`` units, metres by default)."""
     s = r.settings
+    du = DisplayUnits(units or "si")
+    lu = du.unit("length")
     lines = [
         f"landrisk {__version__} - study {r.name} ({r.source})",
         f"Base scenario: {r.base.name} ({r.base.source})" if r.base else "",
@@ -608,12 +640,12 @@ def render_study(r: StudyResult, written: list[str] | None = None) -> str:
         f"(auto: Monte Carlo with >= {s.min_events} overruns, else subset simulation); {r.engine}, "
         f"{r.workers} worker(s); {r.computed} computed, {r.reused} from the cache, {r.seconds:.1f} s",
         "",
-        f"{'case':<44} {'method':<7} {'P(overrun) [95 % interval]':<32} {'CoV':>6} {'p50 m':>7} "
-        f"{'p99 m':>7}",
+        f"{'case':<44} {'method':<7} {'P(overrun) [95 % interval]':<32} {'CoV':>6} {'p50 ' + lu:>7} "
+        f"{'p99 ' + lu:>7}",
     ]
     for c in r.cases:
         pct = {p.p: p.value for p in c.percentiles}
-        p50, p99 = pct.get(50.0), pct.get(99.0)
+        p50, p99 = (None if x is None else du.length(x) for x in (pct.get(50.0), pct.get(99.0)))
         prob = f"< {c.ci[1]:.2e} (none seen)" if c.upper_bound_only else \
             f"{c.p_overrun:.2e} [{c.ci[0]:.2e}, {c.ci[1]:.2e}]"
         cov = f"{100 * c.cov:.0f} %" if c.cov is not None else "-"

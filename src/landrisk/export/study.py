@@ -143,9 +143,15 @@ def study_record(r: StudyResult) -> dict[str, Any]:
     return json_safe(rec)
 
 
-def study_table(r: StudyResult) -> pd.DataFrame:
-    """One row per case: its overrides, method, P(overrun) with interval and CoV, percentiles, yearly."""
+def study_table(r: StudyResult, units: str | None = None) -> pd.DataFrame:
+    """One row per case: its overrides, method, P(overrun) with interval and CoV, percentiles (in the
+    unit of the system ``units``, metres by default, named in the header), yearly figures."""
     import pandas as pd
+
+    from landrisk.units import DisplayUnits
+
+    du = DisplayUnits(units or "si")
+    lu = du.unit("length")
 
     keys: list[str] = []
     for c in r.cases:
@@ -160,8 +166,8 @@ def study_table(r: StudyResult) -> pd.DataFrame:
                     "mc_overruns": c.mc.events, "mc_samples": c.mc.n, "rare_calls": c.rare_calls,
                     "p_beyond_resa": c.p_beyond_resa.estimate})
         for p in c.percentiles:
-            row[f"p{p.p:g}_m"] = p.value
-        row["percentile_error_m"] = c.percentile_error_m
+            row[f"p{p.p:g} [{lu}]"] = du.length(p.value)
+        row[f"percentile_error [{lu}]"] = du.length(c.percentile_error_m)
         if e is not None:
             y = e.per_case[c.name]
             row.update({"overruns_per_year": y.overruns_per_year,
@@ -186,11 +192,12 @@ def _parquet(frame: pd.DataFrame, meta: dict[str, Any]) -> bytes:
     return buf.getvalue()
 
 
-def write_study(r: StudyResult, folder: str | Path, *, force: bool = False, figures: bool = True
-                ) -> list[Path]:
-    """study.json, study.csv, study.parquet and the figures (PNG and SVG) in ``folder``."""
+def write_study(r: StudyResult, folder: str | Path, *, force: bool = False, figures: bool = True,
+                units: str | None = None) -> list[Path]:
+    """study.json, study.csv, study.parquet and the figures (PNG and SVG) in ``folder`` (``units``: the
+    distance columns of the tables in ``si`` or ``aviation`` units; the JSON stays SI)."""
     rec = study_record(r)
-    frame = study_table(r)
+    frame = study_table(r, units)
     figs: dict[str, Callable[[Any], Any]] = {}
     if figures:
         from landrisk.plotting import study_figures

@@ -145,9 +145,10 @@ def rank_table(r: Ranking, units: Units = None) -> pd.DataFrame:
     return _framed(pd.DataFrame(rows))
 
 
-def overrun_profile_table(r: Ranking) -> pd.DataFrame:
-    """One row per input: its median before and given an overrun (SI units of the key), the shift, and
-    the input's first-order index of the overrun indicator."""
+def overrun_profile_table(r: Ranking, units: Units = None) -> pd.DataFrame:
+    """One row per input: its median before and given an overrun (in the ``unit`` column's unit: the
+    key's SI unit, or the system ``units`` asks for), the shift, and the input's first-order index of
+    the overrun indicator."""
     import pandas as pd
 
     cols = ["name", "unit", "prior_median", "overrun_median", "shift", "overrun_first_order",
@@ -155,12 +156,23 @@ def overrun_profile_table(r: Ranking) -> pd.DataFrame:
     o = r.overrun
     if o is None:
         return _framed(pd.DataFrame(columns=cols))
-    return _framed(pd.DataFrame([{"name": p.name, "unit": p.unit, "prior_median": p.prior_median,
-                          "overrun_median": p.overrun_median, "shift": p.shift,
-                          "overrun_first_order": i.first_order,
-                          "overrun_first_order_ci95_lo": i.ci[0] if i.ci else None,
-                          "overrun_first_order_ci95_hi": i.ci[1] if i.ci else None, "note": i.note}
-                         for p, i in zip(o.profile, o.indices, strict=True)], columns=cols))
+    du = _du(units) if units is not None else None
+    rows = []
+    for p, i in zip(o.profile, o.indices, strict=True):
+        unit, prior, given, shift = p.unit, p.prior_median, p.overrun_median, p.shift
+        spec = KEYS.get(p.name)
+        if du is not None and spec is not None and not p.discrete:
+            kind, unit = du.key_unit(spec.unit)
+            if kind is not None:
+                prior = du.value(kind, p.prior_median)
+                if p.overrun_median is not None:
+                    given = du.value(kind, p.overrun_median)
+                    shift = given - prior  # a difference: no temperature offset
+        rows.append({"name": p.name, "unit": unit, "prior_median": prior, "overrun_median": given,
+                     "shift": shift, "overrun_first_order": i.first_order,
+                     "overrun_first_order_ci95_lo": i.ci[0] if i.ci else None,
+                     "overrun_first_order_ci95_hi": i.ci[1] if i.ci else None, "note": i.note})
+    return _framed(pd.DataFrame(rows, columns=cols))
 
 
 def risk_curve_table(r: RareAssessment, units: Units = None) -> pd.DataFrame:

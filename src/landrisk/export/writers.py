@@ -266,10 +266,14 @@ def write_assessment(a: Assessment, folder: str | Path, *, force: bool = False, 
 def write_ranking(r: Ranking, folder: str | Path, *, force: bool = False, units: Units = None,
                   command: str | None = None) -> list[Path]:
     """ranking.json, indices.csv and the index and tornado figures (and the surrogate's exceedance)."""
+    from functools import partial
+
     from landrisk.plotting import RANK_FIGURES
 
-    figs = {k: f for k, f in RANK_FIGURES.items() if r.method == "pce" or k != "surrogate-exceedance"}
-    tables = {"indices.csv": rank_table(r, units), "overrun-profile.csv": overrun_profile_table(r)}
+    system = units.system if isinstance(units, DisplayUnits) else units
+    figs = {k: (f if k == "indices" else partial(f, units=system)) for k, f in RANK_FIGURES.items()
+            if r.method == "pce" or k != "surrogate-exceedance"}
+    tables = {"indices.csv": rank_table(r, units), "overrun-profile.csv": overrun_profile_table(r, units)}
     return write_result_set(folder, "ranking.json", ranking_record(r), tables, figs, r,
                             inputs=r.scenario.values, force=force, command=command)
 
@@ -279,9 +283,12 @@ def write_rare(r: RareAssessment, folder: str | Path, *, force: bool = False,
     """summary.json and, with a risk curve, risk-curve.csv and its figure (PNG and SVG)."""
     tables, figs = {}, {}
     if r.risk_curve is not None:
+        from functools import partial
+
         from landrisk.plotting import risk_curve_figure
 
         tables["risk-curve.csv"] = risk_curve_table(r, units)
-        figs["risk-curve"] = risk_curve_figure
+        figs["risk-curve"] = partial(risk_curve_figure,
+                                     units=units.system if isinstance(units, DisplayUnits) else units)
     return write_result_set(folder, "summary.json", rare_record(r), tables, figs, r,
                             inputs=r.scenario.values, force=force, command=command)
