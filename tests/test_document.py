@@ -73,12 +73,52 @@ def rare_dir(tmp_path_factory: pytest.TempPathFactory) -> Path:
     return out
 
 
+ROOT = Path(__file__).resolve().parents[1]
+
+#: A small study of the invented base scenario: two cases, a comparison and the yearly risk.
+STUDY = f"""
+[study]
+name = "document test"
+scenario = "{(ROOT / 'configs' / 'study-base-invented.toml').as_posix()}"
+samples = 4000
+seed = 5
+method = "mc"
+
+[[case]]
+name = "base"
+
+[[case]]
+name = "quick"
+'uncertain."procedure.reaction_time".mode' = "1.5 s"
+
+[[comparison]]
+baseline = "base"
+alternative = "quick"
+
+[exposure]
+landings_per_year = 8000
+target_per_year = 50
+"""
+
+
+@pytest.fixture(scope="module")
+def study_dir(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """The study above, by the command line with --report."""
+    folder = tmp_path_factory.mktemp("study")
+    spec = folder / "study.toml"
+    spec.write_text(STUDY, encoding="utf-8")
+    out = folder / "out"
+    r = run("study", str(spec), "--workers", "1", "--quiet", "--out", str(out), "--report")
+    assert r.exit_code == 0, r.output
+    return out
+
+
 def parse(path: Path) -> Any:
     return html5lib.parse(path.read_text(encoding="utf-8"), treebuilder="etree", namespaceHTMLElements=False)
 
 
 def summary_of(folder: Path) -> dict[str, Any]:
-    name = "ranking.json" if (folder / "ranking.json").exists() else "summary.json"
+    name = next(n for n in ("ranking.json", "study.json", "summary.json") if (folder / n).exists())
     return json.loads((folder / name).read_text())
 
 
@@ -116,7 +156,7 @@ def shown_matches(text: str, value: float) -> bool:
 
 
 @pytest.mark.slow
-@pytest.mark.parametrize("which", ["assessment_dir", "ranking_dir", "rare_dir"])
+@pytest.mark.parametrize("which", ["assessment_dir", "ranking_dir", "rare_dir", "study_dir"])
 def test_every_section_is_present_in_reading_order(which: str, request: pytest.FixtureRequest) -> None:
     folder = request.getfixturevalue(which)
     doc = parse(folder / "report.html")
@@ -127,7 +167,7 @@ def test_every_section_is_present_in_reading_order(which: str, request: pytest.F
         assert section is not None and len(text_of(section)) > 40, sid
 
 
-@pytest.mark.parametrize("which", ["assessment_dir", "ranking_dir", "rare_dir"])
+@pytest.mark.parametrize("which", ["assessment_dir", "ranking_dir", "rare_dir", "study_dir"])
 def test_the_caution_comes_before_any_result(which: str, request: pytest.FixtureRequest) -> None:
     folder = request.getfixturevalue(which)
     doc = parse(folder / "report.html")
@@ -151,7 +191,7 @@ def test_invented_is_read_from_the_description() -> None:
     assert not invented(None)
 
 
-@pytest.mark.parametrize("which", ["assessment_dir", "ranking_dir", "rare_dir"])
+@pytest.mark.parametrize("which", ["assessment_dir", "ranking_dir", "rare_dir", "study_dir"])
 def test_every_figure_is_embedded_and_nothing_is_fetched(which: str, request: pytest.FixtureRequest) -> None:
     folder = request.getfixturevalue(which)
     summary = summary_of(folder)
@@ -180,7 +220,7 @@ def test_every_figure_is_embedded_and_nothing_is_fetched(which: str, request: py
             assert ref.startswith("#"), ref
 
 
-@pytest.mark.parametrize("which", ["assessment_dir", "ranking_dir", "rare_dir"])
+@pytest.mark.parametrize("which", ["assessment_dir", "ranking_dir", "rare_dir", "study_dir"])
 def test_the_numbers_are_those_of_the_summary(which: str, request: pytest.FixtureRequest) -> None:
     folder = request.getfixturevalue(which)
     summary = summary_of(folder)
@@ -203,6 +243,10 @@ def test_the_numbers_are_those_of_the_summary(which: str, request: pytest.Fixtur
                         "chaos/holdout_rel_error", "chaos/tail_rel_rms", "mc_check/rel_diff/p99",
                         "inputs_used/runway.lda", "seed", "calls"},
         "rare_dir": {"p_overrun", "beta", "seed", "model_calls", "inputs/runway.lda"},
+        "study_dir": {"cases/0/p_overrun", "cases/0/p_overrun_ci95/0", "cases/1/p_overrun_ci95/1",
+                      "cases/0/percentiles_m/99", "comparisons/0/difference", "comparisons/0/ratio",
+                      "exposure/overruns_per_year", "exposure/p_at_least_one_per_year", "seed", "samples",
+                      "inputs/runway.lda"},
     }[which]
     assert required <= keys, required - keys
 
@@ -301,7 +345,25 @@ def test_report_command_and_its_errors(assessment_dir: Path, tmp_path: Path) -> 
     assert bad.exit_code == 2 and "not valid JSON" in bad.stderr
 
 
+def test_the_study_document(study_dir: Path) -> None:
+    summary = summary_of(study_dir)
+    doc = parse(study_dir / "report.html")
+    assert read_results(study_dir).kind == "study"
+    cases = doc.find(".//table[@id='study-cases']")
+    assert cases is not None and all(c["name"] in words_of(cases) for c in summary["cases"])
+    assert "against" in words_of(doc.find(".//table[@id='study-comparisons']"))
+    yearly = text_of(doc.find(".//*[@id='yearly-risk']"))
+    assert "8,000 landings a year" in yearly and "at least one" in yearly
+    assert summary["exposure"]["target_status"] in text_of(doc.find(".//*[@id='target']"))
+    figures = {f.get("id") for f in doc.find(".//section[@id='answer']").iter("figure")}
+    assert {"fig-study-cases", "fig-study-comparisons", "fig-study-yearly"} <= figures
+    # the base scenario's uncertain inputs, each with its source line
+    rows = doc.find(".//table[@id='uncertain-inputs']")
+    assert rows is not None and all(k in words_of(rows) for k in summary["uncertain"]["inputs"])
+    assert read_results(study_dir).hash_matches is True
+
+
 def test_report_needs_out() -> None:
-    for cmd in ("assess", "rank"):
-        r = run(cmd, "--report")
+    for cmd in (["assess"], ["rank"], ["study", str(ROOT / "configs" / "studies" / "invented-study.toml")]):
+        r = run(*cmd, "--report")
         assert r.exit_code == 2 and "--report needs --out" in r.output

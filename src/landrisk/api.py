@@ -447,5 +447,6 @@ def study(
         x = spec.exposure
         exposure = exposure_risk(result.cases, Exposure(x.landings_per_year, x.mix, x.target_per_year,
                                                         x.target_per_landing), settings.confidence)
-    base, _ = resolve_case(spec, type(spec.cases[0])("base", "", ()))
-    return replace(result, name=spec.name, source=spec.source, text=spec.text, base=base, exposure=exposure)
+    base, base_uncertain = resolve_case(spec, type(spec.cases[0])("base", "", ()))
+    return replace(result, name=spec.name, source=spec.source, text=spec.text, base=base,
+                   base_uncertain=base_uncertain.record(), exposure=exposure)

@@ -385,10 +385,11 @@ def calibrate(config: str, reference: str, overrides: tuple[str, ...], out_dir: 
 @click.option("--force", is_flag=True, help="Replace existing output files.")
 @click.option("--quiet", is_flag=True, help="No progress bar.")
 @_units_option
+@_report_option
 @_reported
 def study(study_file: str, out_dir: str | None, as_json: bool, workers: int | None, use_dask: bool,
           scheduler: str | None, seed: int | None, samples: int | None, force: bool, quiet: bool,
-          units: str | None) -> None:
+          units: str | None, with_report: bool) -> None:
     """Many cases of one scenario: P(overrun) per case, paired comparisons and the yearly risk.
 
     STUDY_FILE names a base scenario and [[case]] tables and/or a [grid] of overrides (any key, and
@@ -402,6 +403,8 @@ def study(study_file: str, out_dir: str | None, as_json: bool, workers: int | No
 
     if use_dask and scheduler:
         raise click.UsageError("give --dask or --scheduler, not both")
+    if with_report and not out_dir:
+        raise click.UsageError("--report needs --out DIR")
     if out_dir and not force:
         existing = [n for n in ("study.json", "study.csv") if (Path(out_dir) / n).exists()]
         if existing:
@@ -417,6 +420,7 @@ def study(study_file: str, out_dir: str | None, as_json: bool, workers: int | No
     shown = api.display_units(result.base, units) if result.base is not None else units
     written = ([str(p) for p in api.write_study(result, out_dir, force=True, units=shown)]
                if out_dir else None)
+    _write_report(out_dir, with_report, written, True)
     if as_json:
         record = {k: v for k, v in api.study_record(result).items() if not k.endswith("_text")}
         _echo(api.dumps(record))

@@ -657,10 +657,11 @@ def render_study(r: StudyResult, written: list[str] | None = None, units: str | 
         p = cmp.paired
         ratio = "ratio - (no overrun seen in one case)" if p.ratio is None or p.ratio_ci is None else \
             f"ratio {p.ratio:.3f} [{p.ratio_ci[0]:.3f}, {p.ratio_ci[1]:.3f}]"
-        vr = f"{p.variance_reduction:.1f}x" if p.variance_reduction else "-"
+        vr = (f"variance {p.variance_reduction:.1f}x smaller than two independent runs"
+              if p.variance_reduction else "no sample differs between the two: no variance reduction "
+              "to state")
         lines.append(f"  {cmp.alternative} vs {cmp.baseline}: difference {p.difference:+.2e} "
-                     f"[{p.difference_ci[0]:+.2e}, {p.difference_ci[1]:+.2e}], {ratio}; variance "
-                     f"{vr} smaller than two independent runs")
+                     f"[{p.difference_ci[0]:+.2e}, {p.difference_ci[1]:+.2e}], {ratio}; {vr}")
     e = r.exposure
     if e is not None:
         y = e.yearly

@@ -1,8 +1,8 @@
 """Reading a results folder: its JSON summary and its figures, as written by :mod:`landrisk.export`.
 
 A folder is recognised by the first :class:`Reader` in :data:`READERS` whose summary file is present
-and whose ``accepts`` test passes on the parsed summary. To add a kind of result (a study folder written
-by ``landrisk study --out``), append a Reader naming its summary file, add its section template
+and whose ``accepts`` test passes on the parsed summary. To add a kind of result, append a Reader naming
+its summary file, add its section template
 ``templates/_<kind>.html.j2`` and the figure placement in :data:`landrisk.document.render.FIGURE_PLACES`.
 """
 
@@ -34,9 +34,9 @@ def _is_rare(s: Mapping[str, Any]) -> bool:
     return s.get("method") in ("auto", "form", "sorm", "importance", "subset")
 
 
-#: Kinds of results folder, tried in order. The study folder (``landrisk study --out``) is not read yet:
-#: append ``Reader("study", "study.json", lambda s: True)`` once that command writes its folder.
+#: Kinds of results folder, tried in order.
 READERS: tuple[Reader, ...] = (
+    Reader("study", "study.json", lambda s: "cases" in s),
     Reader("ranking", "ranking.json", lambda s: "inputs_used" in s, inputs_key="inputs_used"),
     Reader("rare", "summary.json", _is_rare),
     Reader("assessment", "summary.json", lambda s: "percentiles_m" in s and not _is_rare(s)),
@@ -115,7 +115,7 @@ def read_results(folder: str | Path) -> ResultSet:
             return ResultSet(root, reader.kind, reader.summary_name, summary, figures, reader.inputs_key,
                              missing)
     raise LandriskError(f"{root}: no landrisk results here (expected one of {', '.join(names)} written by "
-                        "landrisk assess --out or landrisk rank --out)")
+                        "landrisk assess --out, landrisk rank --out or landrisk study --out)")
 
 
 def _figures(root: Path, summary: Mapping[str, Any]) -> tuple[tuple[ResultFigure, ...], tuple[str, ...]]:

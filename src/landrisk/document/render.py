@@ -40,6 +40,7 @@ FIGURE_PLACES: dict[str, str] = {
     "exceedance": "answer", "histogram": "answer", "risk-curve": "answer",
     "indices": "ranking", "tornado": "ranking",
     "convergence": "checks", "surrogate-exceedance": "checks",
+    "study-cases": "answer", "study-comparisons": "answer", "study-yearly": "answer",
 }
 
 _CAPTIONS: dict[str, str] = {
@@ -53,6 +54,11 @@ _CAPTIONS: dict[str, str] = {
     "surrogate-exceedance": "The surrogate's exceedance curve beside that of a Monte Carlo run of the "
                             "real solver.",
     "risk-curve": "Probability of an overrun per landing against the landing distance available.",
+    "study-cases": "P(overrun) per landing of each case of the study, with its 95 % interval.",
+    "study-comparisons": "Each alternative against its baseline on common random numbers: the ratio of "
+                         "P(overrun) with its paired 95 % interval.",
+    "study-yearly": "Expected overruns per year of each case at the study's exposure, with the target "
+                    "level of safety where one is given.",
 }
 
 MISSING = object()

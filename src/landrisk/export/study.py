@@ -140,6 +140,8 @@ def study_record(r: StudyResult) -> dict[str, Any]:
     rec["study_text"] = r.text
     rec["scenario_text"] = r.base.text if r.base else None
     rec["inputs"] = dict(r.base.values) if r.base else {}
+    rec["uncertain"] = dict(r.base_uncertain)  # the base scenario's; the cases override some parameters
+    rec["overrides"] = []  # the base scenario has none; each case lists its own
     return json_safe(rec)
 
 

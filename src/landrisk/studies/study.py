@@ -187,6 +187,7 @@ class StudyResult:
     source: str = ""  # the study file
     text: str = ""  # the study file as read
     base: Scenario | None = None  # the base scenario, without the cases' overrides
+    base_uncertain: Mapping[str, Any] = field(default_factory=dict)  # how its uncertain inputs were given
 
 
 # ---------------------------------------------------------------------------------------- units of work
@@ -335,6 +336,11 @@ class _Engine:
 # ------------------------------------------------------------------------------------------------ study
 
 
+#: Part of every cache key: raise it when the way a cached case or comparison is computed changes, so
+#: that a rerun does not reuse results of the earlier computation (2: Newcombe's paired interval).
+CACHE_FORMAT = 2
+
+
 def case_key(case: StudyCase, s: StudySettings) -> str:
     """Hash of the case's resolved inputs, uncertain inputs, the settings (seed, method...) and version."""
     payload = {
@@ -345,6 +351,7 @@ def case_key(case: StudyCase, s: StudySettings) -> str:
         "record": case.record,
         "settings": s.__dict__,
         "version": __version__,
+        "cache_format": CACHE_FORMAT,
     }
     text = json.dumps(payload, sort_keys=True, default=repr)
     return hashlib.sha256(text.encode()).hexdigest()[:32]
@@ -381,8 +388,8 @@ def _merge_chunks(chunks: list[_Chunk], s: StudySettings) -> _MCSummary:
 
 
 def _comparison_key(kb: str, ka: str, s: StudySettings) -> str:
-    return hashlib.sha256(f"paired|{kb}|{ka}|{s.samples}|{s.seed}|{s.split}|{__version__}".encode()
-                          ).hexdigest()[:32]
+    text = f"paired|{kb}|{ka}|{s.samples}|{s.seed}|{s.split}|{__version__}|{CACHE_FORMAT}"
+    return hashlib.sha256(text.encode()).hexdigest()[:32]
 
 
 def run_study(
