@@ -58,7 +58,7 @@ def drawn_texts(fig: Any) -> list[Text]:
     """Every non-empty text the figure draws (tick labels only of the ticks in view)."""
     fig.canvas.draw()
     tick_labels, drawn = set(), set()
-    for ax in fig.axes:
+    for ax in [a for parent in fig.axes for a in (parent, *parent.child_axes)]:  # secondary axes too
         for axis in (ax.xaxis, ax.yaxis):
             for tick in axis.get_major_ticks() + axis.get_minor_ticks():
                 tick_labels |= {id(tick.label1), id(tick.label2)}
@@ -202,3 +202,41 @@ def test_intervals_are_bands(results: dict[str, Any], figures: dict[str, Any]) -
         assert bands and "interval" in bands[0].get_label(), stem
     p = results["assessment"].convergence["p_event"]
     assert figures["convergence"].axes[0].get_yscale() == ("log" if np.any(p > 0) else "linear")
+    # the running P99 has its order-statistic band too
+    bands = [c for c in figures["convergence"].axes[1].collections if isinstance(c, PolyCollection)]
+    assert bands and "order statistics" in bands[0].get_label()
+
+
+def test_distance_axes_in_feet_beside_metres_unless_a_system_is_chosen(results: dict[str, Any]) -> None:
+    # 1 ft = 0.3048 m exactly (NIST SP 811, 2008, appendix B.8).
+    a = results["assessment"]
+    fig = plotting.exceedance_figure(a)
+    ax = fig.axes[0]
+    (top,) = ax.child_axes
+    fig.canvas.draw()
+    for metres in (1000.0, 1900.0):  # the same place on the canvas reads metres below and feet above
+        x_display = ax.transData.transform((metres, 1.0))[0]
+        feet = top.transData.inverted().transform((x_display, 0.0))[0]
+        assert feet == pytest.approx(metres / 0.3048, rel=1e-9)
+    assert "[ft]" in top.get_xlabel()
+    matplotlib.pyplot.close(fig)
+    for units in ("si", "aviation"):
+        fig = plotting.exceedance_figure(a, units=units)
+        assert fig.axes[0].child_axes == []
+        matplotlib.pyplot.close(fig)
+
+
+def test_the_caution_box_avoids_the_histogram_bars(results: dict[str, Any]) -> None:
+    # The bars of the demo's histogram rise on the left: a box placed there would hide them.
+    from matplotlib.path import Path
+
+    fig = plotting.histogram_figure(results["assessment"])
+    fig.canvas.draw()
+    ax = fig.axes[0]
+    bb = caution_box(fig).get_window_extent(fig.canvas.get_renderer())
+    corners = np.array([[bb.x0, bb.y0], [bb.x1, bb.y0], [bb.x0, bb.y1], [bb.x1, bb.y1],
+                        [(bb.x0 + bb.x1) / 2, (bb.y0 + bb.y1) / 2]])
+    hidden = sum(int(Path(p.get_transform().transform(p.get_path().vertices)).contains_points(corners).sum())
+                 for p in ax.patches if p.get_zorder() > 0)
+    assert hidden <= 1
+    matplotlib.pyplot.close(fig)

@@ -148,6 +148,25 @@ def test_percentile_interval_is_scipy_quantile_test() -> None:
     assert not percentiles(x, [99.99])[0].supported  # the sample cannot support it
 
 
+def test_running_p99_and_its_interval_are_numpy_and_scipy_quantile_test() -> None:
+    # At every prefix the running P99 is numpy's quantile and its band the order statistics of
+    # scipy.stats.quantile_test(...).confidence_interval(0.95); NaN where the prefix cannot bound it.
+    from landrisk.uq.stats import convergence
+
+    x = np.random.default_rng(3).lognormal(size=20_000)
+    c = convergence(x, x > 5.0, 0.99)
+    supported = 0
+    for j, m in enumerate(c["n"].astype(int)):
+        assert c["quantile"][j] == np.quantile(x[:m], 0.99)
+        ci = stats.quantile_test(x[:m], p=0.99).confidence_interval(0.95)
+        if np.isnan(ci.high):
+            assert np.isnan(c["quantile_hi"][j])
+        else:
+            assert (c["quantile_lo"][j], c["quantile_hi"][j]) == (ci.low, ci.high)
+            supported += 1
+    assert supported >= 10
+
+
 def test_zero_events_is_an_upper_bound_by_the_rule_of_three() -> None:
     # With no event in n trials the 95 % upper bound is 1 - 0.05^(1/n), about 3/n (rule of three).
     r = event_probability(0, 1_000_000)

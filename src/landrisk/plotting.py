@@ -20,7 +20,7 @@ import functools
 import io
 import json
 import textwrap
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from typing import TYPE_CHECKING, Any, TypeVar
 
 import numpy as np
@@ -118,22 +118,99 @@ def runway_marks(ax: Axes, lda_m: float, resa_m: float | None, unit: str = "m") 
                    label=f"end of the safety area, LDA + {resa_m:.0f} {unit} = {end:.0f} {unit}")
 
 
-def _caution_box(fig: Figure, ax: Axes, scenario: Any, loc: str) -> None:
-    """The caution (and "INVENTED DATA") inside the plot area, in a framed box at ``loc``."""
+def _caution_box(fig: Figure, axes: Sequence[Axes], scenario: Any, loc: str) -> Any:
+    """The caution (and "INVENTED DATA") inside the plot area of the first of ``axes``, in a framed box
+    at ``loc``; "best": the axes and place of :data:`_CAUTION_PLACES` where it covers the least of the
+    plotted data."""
     from matplotlib.offsetbox import AnchoredText
 
+    if loc == "best":
+        scored = [(_least_covering(fig, ax, _caution_maker(fig, ax, scenario, AnchoredText)), k)
+                  for k, ax in enumerate(axes)]
+        (_score, where), k = min(scored, key=lambda t: (t[0][0], t[1]))
+        box = _caution_maker(fig, axes[k], scenario, AnchoredText)(where)
+    else:
+        box = _caution_maker(fig, axes[0], scenario, AnchoredText)(loc)
+        k = 0
+    axes[k].add_artist(box)
+    return box
+
+
+def _caution_maker(fig: Figure, ax: Axes, scenario: Any, anchored: Any) -> Callable[[str], Any]:
+    """A function of the place that makes the caution box for ``ax`` (wrapped to its width)."""
     width_in = ax.get_position().width * fig.get_figwidth()
     chars = min(66, max(36, int(width_in * 0.85 * 72 / 3.4)))  # about 3.4 pt per character at 6.5 pt
     lines = textwrap.wrap(CAUTION, chars)
     if invented(scenario.values.get("scenario.description")):
         lines = ["INVENTED DATA: an illustration, no real aircraft or runway", *lines]
-    box = AnchoredText("\n".join(lines), loc=loc, prop={"size": 6.5}, frameon=True, borderpad=0.4, pad=0.3)
-    box.patch.set_boxstyle("round,pad=0.2")
-    box.patch.set_facecolor("white")
-    box.patch.set_alpha(0.9)
-    box.patch.set_edgecolor("#D55E00")
-    box.set_zorder(5)
-    ax.add_artist(box)
+
+    def make(where: str) -> Any:
+        box = anchored("\n".join(lines), loc=where, prop={"size": 6.5}, frameon=True, borderpad=0.4,
+                       pad=0.3)
+        box.patch.set_boxstyle("round,pad=0.2")
+        box.patch.set_facecolor("white")
+        box.patch.set_alpha(0.9)
+        box.patch.set_edgecolor("#D55E00")
+        box.set_zorder(5)
+        return box
+
+    return make
+
+
+#: Places tried for the caution box, in order of preference (the first of equally good ones wins).
+_CAUTION_PLACES = ("upper right", "upper left", "lower right", "lower left", "center right", "center left",
+                   "upper center", "lower center")
+
+
+def _least_covering(fig: Figure, ax: Axes, make: Callable[[str], Any]) -> tuple[float, str]:
+    """The place of :data:`_CAUTION_PLACES` where the caution box hides the least: line points (each
+    line sampled densely in display space), filled areas (bands, bars) and the legend."""
+    import matplotlib.collections as mcoll
+    from matplotlib.path import Path
+
+    canvas: Any = fig.canvas
+    renderer = canvas.get_renderer()
+    points = []
+    for line in ax.get_lines():
+        xy = line.get_transform().transform(np.asarray(line.get_xydata(), dtype=float))
+        xy = xy[np.all(np.isfinite(xy), axis=1)]
+        if len(xy) >= 2:  # 50 points per segment, so that a long straight segment still counts
+            t = np.linspace(0.0, 1.0, 50)[:, None, None]
+            xy = (xy[:-1] * (1 - t) + xy[1:] * t).reshape(-1, 2)
+        points.append(xy)
+    pts = np.concatenate(points) if points else np.empty((0, 2))
+    # Background shading (zorder <= 0, such as the safety area) may be covered; bands and bars not.
+    filled = [a for a in [*(c for c in ax.collections if isinstance(c, mcoll.PolyCollection)), *ax.patches]
+              if a.get_zorder() > 0]
+    legend = ax.get_legend()
+    legend_box = legend.get_window_extent(renderer) if legend is not None else None
+    best, best_score = _CAUTION_PLACES[0], np.inf
+    for where in _CAUTION_PLACES:
+        box = make(where)
+        ax.add_artist(box)
+        bb = box.get_window_extent(renderer)
+        box.remove()
+        inside = np.count_nonzero((pts[:, 0] >= bb.x0) & (pts[:, 0] <= bb.x1) & (pts[:, 1] >= bb.y0)
+                                  & (pts[:, 1] <= bb.y1)) if len(pts) else 0
+        gx, gy = np.meshgrid(np.linspace(bb.x0, bb.x1, 12), np.linspace(bb.y0, bb.y1, 6))
+        grid = np.column_stack([gx.ravel(), gy.ravel()])
+        covered = 0
+        for artist in filled:
+            shape: Any = artist
+            paths = shape.get_paths() if hasattr(shape, "get_paths") else [shape.get_path()]
+            tr = artist.get_transform()
+            for path in paths:  # transformed first: contains_points(transform=) drops a log scale
+                shown = Path(tr.transform(path.vertices), path.codes)
+                covered += int(np.count_nonzero(shown.contains_points(grid)))
+        overlap = 0.0
+        if legend_box is not None:
+            w = max(0.0, min(bb.x1, legend_box.x1) - max(bb.x0, legend_box.x0))
+            h = max(0.0, min(bb.y1, legend_box.y1) - max(bb.y0, legend_box.y0))
+            overlap = w * h / max(bb.width * bb.height, 1.0)
+        score = inside + 5.0 * covered + 1000.0 * overlap
+        if score < best_score:
+            best, best_score = where, score
+    return best_score, best
 
 
 def _fit_titles(fig: Figure) -> None:
@@ -155,17 +232,35 @@ def _fit_titles(fig: Figure) -> None:
             text.set_text("\n".join(textwrap.fill(line, chars) for line in content.splitlines()))
 
 
-def _footer(fig: Figure, scenario: Any, run: str, caution_loc: str = "upper right",
-            caution_ax: int = 0) -> None:
-    """The last step of every figure: the caution inside an axes (the first unless ``caution_ax``), a
+def _footer(fig: Figure, scenario: Any, run: str, caution_loc: str = "best",
+            caution_ax: int | None = None) -> None:
+    """The last step of every figure: the caution inside an axes (``caution_ax``, or where it hides the
+    least of the data), a
     provenance line under the axes, titles wrapped to fit and a layout that keeps every text inside the
     canvas."""
-    _caution_box(fig, fig.axes[caution_ax], scenario, caution_loc)
     fig.text(0.005, 0.005, f"landrisk {__version__} | scenario {scenario.name} ({scenario.source}) | {run}",
              fontsize=6, va="bottom", ha="left")
     _fit_titles(fig)
-    fig.tight_layout(rect=(0, _FOOTER_IN / fig.get_figheight(), 1, 1), pad=1.0)
+    rect = (0, _FOOTER_IN / fig.get_figheight(), 1, 1)
+    fig.tight_layout(rect=rect, pad=1.0)
+    # placed once the layout is known; in the axes ``caution_ax``, or in the best of the plot axes
+    plots = [ax for ax in fig.axes if ax.get_label() != "<colorbar>" and ax.get_visible() and ax.axison]
+    axes = [fig.axes[caution_ax]] if caution_ax is not None else (plots or fig.axes[:1])
+    _caution_box(fig, axes, scenario, caution_loc)
+    fig.tight_layout(rect=rect, pad=1.0)
     _fit_titles(fig)
+
+
+def _feet_axis(ax: Axes, units: str | None, which: str = "x") -> None:
+    """With no unit system chosen (metres with feet beside them, as the text reports), a secondary
+    distance axis in feet opposite the metre axis (1 ft = 0.3048 m exactly, NIST SP 811, 2008, B.8)."""
+    if units is not None:
+        return
+    to_ft, to_m = (lambda m: np.asarray(m) / 0.3048), (lambda ft: np.asarray(ft) * 0.3048)
+    if which == "x":
+        ax.secondary_xaxis("top", functions=(to_ft, to_m)).set_xlabel("[ft]", fontsize=7, labelpad=1)
+    else:
+        ax.secondary_yaxis("right", functions=(to_ft, to_m)).set_ylabel("[ft]", fontsize=7)
 
 
 def _assess_run(a: Assessment) -> str:
@@ -202,6 +297,7 @@ def exceedance_figure(a: Assessment, units: str | None = None) -> Figure:
         ax.axvline(d, ls=style, color=colour, lw=1.4, label=f"{c.name}: {d:.0f} {lu}")
     ax.set_xlabel(f"total landing distance from the screen height x [{lu}]")
     ax.set_ylabel("probability that the distance exceeds x")
+    _feet_axis(ax, units)
     stop = f"; {a.cannot_stop:,} of {a.n:,} landings cannot stop" if a.cannot_stop else ""
     ax.set_title(f"Exceedance of the landing distance: {a.scenario.name}\n"
                  f"P(overrun) = {a.p_overrun.text()}{stop}", fontsize=9)
@@ -232,6 +328,7 @@ def histogram_figure(a: Assessment, units: str | None = None) -> Figure:
         ax.axvline(d, color=OKABE_ITO[1], ls="--", label=f"deterministic {d:.0f} {lu}")
     ax.set_xlabel(f"total landing distance from the screen height [{lu}]")
     ax.set_ylabel(f"probability density [1/{lu}]")
+    _feet_axis(ax, units)
     stop = f" ({a.cannot_stop:,} landings that cannot stop left out)" if a.cannot_stop else ""
     ax.set_title(f"Distribution of the landing distance: {a.scenario.name}{stop}\n"
                  f"P(overrun) = {a.p_overrun.text()}", fontsize=9)
@@ -243,7 +340,8 @@ def histogram_figure(a: Assessment, units: str | None = None) -> Figure:
 
 @styled
 def convergence_figure(a: Assessment, units: str | None = None) -> Figure:
-    """P(overrun) and the 99th percentile against the number of samples used."""
+    """P(overrun) and the 99th percentile against the number of samples used, each with its interval as
+    a band (Wilson; order statistics where the prefix can bound the percentile)."""
     plt = _pyplot()
     du = DisplayUnits(units or "si")
     c = a.convergence
@@ -267,21 +365,28 @@ def convergence_figure(a: Assessment, units: str | None = None) -> Figure:
     ok = np.isfinite(q)
     lda = du.length(a.lda_m)
     if ok.any():
-        ax2.plot(n[ok], du.length(q[ok]), marker="o", ms=3)
+        q_lo = np.asarray(c.get("quantile_lo", np.full(q.shape, np.nan)), dtype=float)
+        q_hi = np.asarray(c.get("quantile_hi", np.full(q.shape, np.nan)), dtype=float)
+        band = ok & np.isfinite(q_lo) & np.isfinite(q_hi)
+        if band.any():
+            ax2.fill_between(n[band], du.length(q_lo[band]), du.length(q_hi[band]), alpha=0.3,
+                             color=OKABE_ITO[0], label=f"{100 * conf:g} % interval (order statistics)")
+        ax2.plot(n[ok], du.length(q[ok]), marker="o", ms=3, label="estimate")
         ax2.axhline(lda, color="black", lw=1.5, label=f"LDA {lda:.0f} {du.unit('length')}")
-        ax2.legend(loc="lower right")
+        ax2.legend(loc="lower right", fontsize=7)
         ax2.set_xscale("log")
     else:
         ax2.text(0.5, 0.5, "beyond any runway at every sample count", transform=ax2.transAxes,
                  ha="center", fontsize=8)
     ax2.set_xlabel("samples")
     ax2.set_ylabel(f"P99 of the total distance [{du.unit('length')}]")
+    _feet_axis(ax2, units, "y")
     ax2.set_title("99th percentile" + ("" if ok.all() else " (beyond any runway where not shown)"),
                   fontsize=9)
     for ax in (ax1, ax2):
         ax.grid(True, which="both", alpha=0.3)
     fig.suptitle(f"Convergence of the Monte Carlo estimates: {a.scenario.name}", fontsize=10)
-    _footer(fig, a.scenario, _assess_run(a), caution_loc="center right", caution_ax=1)
+    _footer(fig, a.scenario, _assess_run(a))
     return fig
 
 
@@ -499,6 +604,7 @@ def surrogate_exceedance_figure(r: Ranking, units: str | None = None) -> Figure:
     ax.set_ylim(floor, 1)
     ax.set_xlabel(f"total landing distance from the screen height x [{lu}]")
     ax.set_ylabel("probability that the distance exceeds x")
+    _feet_axis(ax, units)
     passed = r.tail is not None and r.tail.passed
     verdict = "passed" if passed else "FAILED: the surrogate's tail is not reliable"
     ax.set_title(f"Surrogate exceedance curve: {r.scenario.name} (tail check {verdict})", fontsize=9)
@@ -549,6 +655,7 @@ def risk_curve_figure(r: RareAssessment, units: str | None = None) -> Figure:
     ax.set_yscale("log")
     ax.set_ylim(1e-10, 1)
     ax.set_xlabel(f"landing distance available [{lu}]")
+    _feet_axis(ax, units)
     ax.set_ylabel("probability of an overrun per landing")
     ax.set_title(f"Overrun risk against runway length: {r.scenario.name}", fontsize=9)
     ax.grid(True, which="both", alpha=0.3)

@@ -236,14 +236,29 @@ def zero_event_bound(n: int, conf: float = 0.95) -> float:
 
 
 def convergence(
-    x: NDArray[np.float64], event: NDArray[np.bool_], q: float, points: int = 20
+    x: NDArray[np.float64], event: NDArray[np.bool_], q: float, points: int = 20, conf: float = 0.95
 ) -> dict[str, NDArray[np.float64]]:
     """Running estimates over growing prefixes of the sample: P(event) and the q-quantile (q in (0, 1)).
 
-    Returns arrays ``n``, ``p_event``, ``quantile`` at about ``points`` log-spaced prefix sizes.
+    Returns arrays ``n``, ``p_event``, ``quantile`` and the quantile's distribution-free ``conf`` interval
+    ``quantile_lo``, ``quantile_hi`` (order statistics, as :func:`percentiles`; NaN where the prefix is
+    too short to bound it) at about ``points`` log-spaced prefix sizes.
     """
     total = x.size
     sizes = np.unique(np.geomspace(min(100, total), total, points).astype(int))
     cum_events = np.cumsum(event)
-    quant = np.array([_linear_quantile(np.sort(x[:m]), q) for m in sizes])
-    return {"n": sizes.astype(float), "p_event": cum_events[sizes - 1] / sizes, "quantile": quant}
+    quant = np.empty(sizes.size)
+    q_lo = np.full(sizes.size, np.nan)
+    q_hi = np.full(sizes.size, np.nan)
+    for j, m in enumerate(sizes):
+        h = (m - 1) * q
+        k = int(np.floor(h))
+        lo_i, hi_i = _order_statistic_indices(int(m), q, conf)
+        wanted = sorted({k, min(k + 1, m - 1)} | {i for i in (lo_i, hi_i) if 0 <= i < m})
+        part = np.partition(x[:m], wanted)  # the order statistics needed, without a full sort
+        quant[j] = _linear_quantile(part[[k, min(k + 1, m - 1)]] if k + 1 < m else part[[k]], (h - k)
+                                    if k + 1 < m else 0.0)
+        if 0 <= lo_i and hi_i < m:
+            q_lo[j], q_hi[j] = part[lo_i], part[hi_i]
+    return {"n": sizes.astype(float), "p_event": cum_events[sizes - 1] / sizes, "quantile": quant,
+            "quantile_lo": q_lo, "quantile_hi": q_hi}
