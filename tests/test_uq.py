@@ -179,6 +179,28 @@ def test_wilson_interval_is_scipy_binomtest() -> None:
     r = event_probability(12, 10_000)
     ci = stats.binomtest(12, 10_000).proportion_ci(method="wilson")
     assert (r.lo, r.hi) == (ci.low, ci.high)
+    # computed with scipy.special (no scipy.stats import on the Monte Carlo path): the same intervals,
+    # Wilson and Clopper-Pearson ("exact"), for a spread of counts
+    for k, n in ((1, 10), (3, 7), (43, 100_000), (100, 100), (999, 1000), (5, 2_000_000)):
+        for method in ("wilson", "exact"):
+            r = event_probability(k, n, 0.95, method)
+            ci = stats.binomtest(k, n).proportion_ci(confidence_level=0.95, method=method)
+            # (scipy inverts the beta CDF by another routine: agreement to about 1e-10, not bit for bit)
+            assert r.lo == pytest.approx(ci.low, rel=1e-9, abs=1e-300), (k, n, method)
+            assert r.hi == pytest.approx(ci.high, rel=1e-9), (k, n, method)
+
+
+def test_binomial_quantiles_are_scipy_stats_binom() -> None:
+    # The order-statistic indices of every percentile interval rest on these two quantiles.
+    from landrisk.uq.stats import _binom_isf, _binom_ppf
+
+    rng = np.random.default_rng(0)
+    for _ in range(500):
+        n = int(rng.integers(1, 2_000_000))
+        p = float(rng.choice([1e-4, 0.01, 0.05, 0.5, 0.9, 0.95, 0.99, 0.999, rng.random()]))
+        a = float(rng.choice([0.0005, 0.005, 0.025, 0.05, 0.5]))
+        assert _binom_ppf(a, n, p) == stats.binom(n, p).ppf(a), (a, n, p)
+        assert _binom_isf(a, n, p) == stats.binom(n, p).isf(a), (a, n, p)
 
 
 def test_interval_coverage_over_many_seeds() -> None:

@@ -14,7 +14,6 @@ from collections.abc import Iterator
 
 import numpy as np
 from numpy.typing import NDArray
-from scipy.stats import qmc
 
 __all__ = ["SAMPLERS", "Seed", "normalize_seed", "uniform_chunks"]
 
@@ -42,15 +41,17 @@ def uniform_chunks(
         raise ValueError("n, d and chunk must be positive")
     rng = normalize_seed(seed)
     if sampler == "lhs":
+        from scipy.stats import qmc  # imported only for the quasi-random samplers (scipy.stats is slow)
+
         whole = qmc.LatinHypercube(d, seed=rng).random(n)
         for s in range(0, n, chunk):
             yield np.clip(whole[s : s + chunk], _EPS, 1.0 - _EPS)
         return
     engine = None
-    if sampler == "sobol":
-        engine = qmc.Sobol(d, scramble=True, seed=rng)
-    elif sampler == "halton":
-        engine = qmc.Halton(d, scramble=True, seed=rng)
+    if sampler in ("sobol", "halton"):
+        from scipy.stats import qmc
+
+        engine = (qmc.Sobol if sampler == "sobol" else qmc.Halton)(d, scramble=True, seed=rng)
     done = 0
     while done < n:
         m = min(chunk, n - done)

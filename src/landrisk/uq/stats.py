@@ -5,7 +5,8 @@
   Nagaraja, *Order Statistics*, 3rd ed., Wiley 2003, §7.1; the interval of ``scipy.stats.quantile_test``).
   A percentile is *supported* when both order statistics exist in the sample.
 - Probabilities of an event: k events in n samples, the Wilson score interval (Wilson 1927, J. Am. Stat.
-  Assoc. 22:209) or Clopper-Pearson, through ``scipy.stats.binomtest``. With no event the estimate is
+  Assoc. 22:209) or Clopper-Pearson (the intervals of ``scipy.stats.binomtest``, computed here with
+  scipy.special, whose import is far cheaper). With no event the estimate is
   only an upper bound: the one-sided Clopper-Pearson bound 1 - (1 - conf)^(1/n), about 3/n at 95 %
   (the "rule of three").
 - Infinite values (an outcome beyond every finite threshold) are kept in percentiles, whose value or
@@ -22,7 +23,7 @@ from typing import NamedTuple
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy import stats
+from scipy import special
 
 __all__ = [
     "EventProbability",
@@ -66,8 +67,27 @@ def _order_statistic_indices(n: int, q: float, conf: float) -> tuple[int, int]:
     binomial(n, q) count below the quantile, l = F_K^-1(a) - 1 and u = F_K^-1(1 - a), a = (1 - conf)/2.
     """
     a = (1.0 - conf) / 2.0
-    dist = stats.binom(n, q)
-    return int(dist.ppf(a)) - 1, int(dist.isf(a))
+    return _binom_ppf(a, n, q) - 1, _binom_isf(a, n, q)
+
+
+def _binom_ppf(y: float, n: int, p: float) -> int:
+    """Least k with P(K <= k) >= y, K ~ binomial(n, p): the quantile ``scipy.stats.binom.ppf`` returns
+    (its Boost-based ufunc in scipy.special, without importing scipy.stats; where that private ufunc is
+    missing, the continuous inverse bdtrik rounded up, one lower if the CDF bdtr there reaches y)."""
+    ufunc = getattr(special, "_ufuncs", None)
+    if ufunc is not None and hasattr(ufunc, "_binom_ppf"):
+        return int(ufunc._binom_ppf(y, n, p))
+    k = int(np.ceil(special.bdtrik(y, n, p)))
+    below = max(k - 1, 0)
+    return below if special.bdtr(below, n, p) >= y else k
+
+
+def _binom_isf(y: float, n: int, p: float) -> int:
+    """Least k with P(K > k) <= y: ``scipy.stats.binom.isf`` (as :func:`_binom_ppf`)."""
+    ufunc = getattr(special, "_ufuncs", None)
+    if ufunc is not None and hasattr(ufunc, "_binom_isf"):
+        return int(ufunc._binom_isf(y, n, p))
+    return _binom_ppf(1.0 - y, n, p)
 
 
 def _linear_quantile(xs: NDArray[np.float64], q: float) -> float:
@@ -156,8 +176,15 @@ def event_probability(k: int, n: int, conf: float = 0.95, method: str = "wilson"
     if k == 0:
         upper = zero_event_bound(n, conf)
         return EventProbability(0, n, 0.0, 0.0, upper, True, "clopper-pearson", conf)
-    ci = stats.binomtest(int(k), int(n)).proportion_ci(confidence_level=conf, method=method)
-    return EventProbability(int(k), int(n), k / n, float(ci.low), float(ci.high), False, method, conf)
+    if method == "wilson":
+        lo, hi = (float(x) for x in wilson_interval(k, n, conf))
+    elif method == "exact":  # Clopper & Pearson 1934: quantiles of beta distributions
+        a = (1.0 - conf) / 2.0
+        lo = float(special.betaincinv(k, n - k + 1, a))
+        hi = 1.0 if k == n else float(special.betaincinv(k + 1, n - k, 1.0 - a))
+    else:
+        raise ValueError(f"unknown interval method {method!r}; choose wilson or exact")
+    return EventProbability(int(k), int(n), k / n, lo, hi, False, method, conf)
 
 
 class Moments(NamedTuple):
@@ -194,7 +221,7 @@ def mean_interval(x: ArrayLike, conf: float = 0.95) -> Moments:
     if n < 2:
         return Moments(mean, None, None, None, n, excluded)
     sd = float(used.std(ddof=1))
-    half = float(stats.norm.ppf(0.5 + conf / 2) * sd / np.sqrt(n))
+    half = float(special.ndtri(0.5 + conf / 2) * sd / np.sqrt(n))
     return Moments(mean, sd, mean - half, mean + half, n, excluded)
 
 
@@ -204,7 +231,7 @@ def wilson_interval(
     """Vectorised Wilson score interval (Wilson 1927) for k events in n trials."""
     k = np.asarray(k, dtype=float)
     n = np.asarray(n, dtype=float)
-    z = stats.norm.ppf(0.5 + conf / 2)
+    z = special.ndtri(0.5 + conf / 2)
     p = k / n
     denom = 1.0 + z * z / n
     centre = (p + z * z / (2 * n)) / denom
