@@ -13,6 +13,31 @@ FT = 0.3048  # m, exact by definition
 LBF = 4.4482216152605  # N, exact by definition (0.45359237 kg x 9.80665 m/s^2)
 SLUG_FT3 = 14.59390294 / FT**3  # kg/m^3 per slug/ft^3
 
+#: The tests' own scenario file (Anderson 1999, Example 6.7's aircraft in SI, rounded; not a check
+#: value): ``{friction}`` takes the [runway] friction lines.
+_SCENARIO = """
+[aircraft]
+mass = "33112 kg"
+wing_area = "88.26 m^2"
+wing_span = "22.86 m"
+wing_height = "1.71 m"
+cl_max = 2.39
+cd0 = 0.0276
+oswald = 0.9
+cl_ground = 0.1
+[runway]
+lda = "1200 m"
+{friction}
+[procedure]
+reaction_time = "3 s"
+"""
+DRY_FRICTION = 'rolling_mu = 0.03\nbraking_mu = 0.4'
+
+
+def scenario_text(friction: str = DRY_FRICTION) -> str:
+    """The tests' own scenario file as text, with ``friction`` as its runway friction lines."""
+    return _SCENARIO.format(friction=friction)
+
 
 def anderson_example_6_7() -> LandingCase:
     """Anderson, *Aircraft Performance and Design*, McGraw-Hill 1999, §6.8, Example 6.7 (pp. 374-375).

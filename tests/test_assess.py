@@ -7,7 +7,7 @@ import numpy as np
 import pandas as pd
 import pytest
 from click.testing import CliRunner
-from conftest import FT
+from conftest import FT, scenario_text
 from scipy import stats
 
 from landrisk import api
@@ -21,23 +21,7 @@ DATA = Path(__file__).resolve().parent / "data"
 
 # A scenario of the tests' own: Anderson (1999) Example 6.7's aircraft in SI, rounded (not a check
 # value here; the checks below are relations that hold for any aircraft).
-BASE = """
-[aircraft]
-mass = "33112 kg"
-wing_area = "88.26 m^2"
-wing_span = "22.86 m"
-wing_height = "1.71 m"
-cl_max = 2.39
-cd0 = 0.0276
-oswald = 0.9
-cl_ground = 0.1
-[runway]
-lda = "1200 m"
-rolling_mu = 0.03
-braking_mu = 0.4
-[procedure]
-reaction_time = "3 s"
-"""
+BASE = scenario_text()
 
 
 def study(extra: str = "", overrides=(), base_dir=None):

@@ -15,6 +15,7 @@ import numpy as np
 import pandas as pd
 import pytest
 from click.testing import CliRunner
+from conftest import DRY_FRICTION, scenario_text
 from scipy import stats
 
 from landrisk import CAUTION, api
@@ -27,24 +28,7 @@ FT = 0.3048  # m, exact by definition (international foot, 1959)
 KT = 1852.0 / 3600.0  # m/s, exact by definition (international nautical mile per hour)
 LB = 0.45359237  # kg, exact by definition (international pound, 1959)
 
-# The tests' own scenario (Anderson 1999, Example 6.7's aircraft in SI, rounded; not a check value).
-BASE = """
-[aircraft]
-mass = "33112 kg"
-wing_area = "88.26 m^2"
-wing_span = "22.86 m"
-wing_height = "1.71 m"
-cl_max = 2.39
-cd0 = 0.0276
-oswald = 0.9
-cl_ground = 0.1
-[runway]
-lda = "1200 m"
-{friction}
-[procedure]
-reaction_time = "3 s"
-"""
-DRY = 'rolling_mu = 0.03\nbraking_mu = 0.4'
+DRY = DRY_FRICTION
 UNCERTAIN = """
 [uncertain."procedure.reaction_time"]
 distribution = "uniform"
@@ -285,7 +269,7 @@ def test_sigterm_mid_write_leaves_the_old_set_and_no_temporary_files(tmp_path: P
 def test_a_terminal_that_cannot_show_every_character(tmp_path: Path) -> None:
     path = tmp_path / "s.toml"
     path.write_text('[scenario]\nname = "ünïcode — test"\ndescription = "μ ≥ 0.3 — by design"\n'
-                    + BASE.format(friction=DRY), encoding="utf-8")
+                    + scenario_text(DRY), encoding="utf-8")
     env = {**os.environ, "PYTHONIOENCODING": "latin-1"}
     res = subprocess.run([sys.executable, "-m", "landrisk.cli", "solve", str(path)], env=env,
                          capture_output=True, timeout=120)
@@ -300,9 +284,9 @@ def test_a_terminal_that_cannot_show_every_character(tmp_path: Path) -> None:
 @pytest.mark.parametrize("friction, why", [("rolling_mu = 0.03\nbraking_mu = 0.2", "braking_mu 0.2"),
                                            ("condition_code = 3", "condition_code 3")])
 def test_regulatory_factors_multiply_a_dry_runway_distance(friction: str, why: str) -> None:
-    scenario, uncertain = parse_study(BASE.format(friction=friction) + UNCERTAIN, "wet.toml")
+    scenario, uncertain = parse_study(scenario_text(friction) + UNCERTAIN, "wet.toml")
     a = api.assess(scenario, uncertain, samples=2000, seed=1)
-    dry = api.solve(parse_study(BASE.format(friction="condition_code = 6"), "dry.toml")[0]).total_m
+    dry = api.solve(parse_study(scenario_text("condition_code = 6"), "dry.toml")[0]).total_m
     wet = api.solve(scenario).total_m
     by = {c.name: c for c in a.comparisons}
     # 14 CFR 121.195(b): the dry requirement is the dry-runway distance / 0.6; (d): 115 % of it.
@@ -319,7 +303,7 @@ def test_regulatory_factors_multiply_a_dry_runway_distance(friction: str, why: s
 
 
 def test_dry_runway_factors_use_the_deterministic_distance() -> None:
-    scenario, uncertain = parse_study(BASE.format(friction=DRY) + UNCERTAIN, "dry.toml")
+    scenario, uncertain = parse_study(scenario_text(DRY) + UNCERTAIN, "dry.toml")
     a = api.assess(scenario, uncertain, samples=2000, seed=1)
     total = api.solve(scenario).total_m
     assert a.dry_basis_note == "" and a.nominal_note == ""
