@@ -38,8 +38,10 @@ def _within(key, lo=None, hi=None) -> st.SearchStrategy[float]:
 @st.composite
 def scenario_values(draw, realistic_idle: bool = False) -> dict[str, float | bool | None]:
     """Every scalar key inside its schema bounds. ``realistic_idle``: forward idle thrust at most 2 % of
-    the weight, no reverse thrust, a retarding quadratic term, a linear term small enough
-    that it adds less than 1 % of the weight at the largest tailwind airspeed (-40 m/s; t1 V > 0 there),
+    the weight and under half the net friction (friction less downhill slope), no reverse thrust, a
+    retarding quadratic term, a
+    linear term small enough that it adds less than 1 % of the weight at the largest tailwind airspeed
+    (-40 m/s; t1 V > 0 there),
     braking friction at least 0.08, lift below weight at touchdown (held up by lift, a light aircraft
     has no friction to stop with).
     Beyond that physics reverses the mass effect: with a distance ~ m^2 / (mu g m - T), a heavier aircraft
@@ -55,10 +57,17 @@ def scenario_values(draw, realistic_idle: bool = False) -> dict[str, float | boo
     v["procedure.touchdown_distance"] = draw(st.none() | _within(KEYS["procedure.touchdown_distance"]))
     if realistic_idle:
         weight = float(v["aircraft.mass"]) * 9.80665
-        v["aircraft.thrust.idle.t0"] = draw(st.floats(0.0, 0.02)) * weight
+        v["runway.braking_mu"] = draw(_within(KEYS["runway.braking_mu"], lo=0.08))
+        # Below half the net friction of each phase too, the reversal below holding with mu the rolling
+        # or braking mu less the downhill slope's share of the weight (100 kg, t0 = 15.3 N = 2 % of the
+        # weight, rolling mu 0.0156, 14 s free roll: 1.25 times the mass stops 0.3 mm shorter; braking mu
+        # 0.094 on a 7 % downhill slope with t0 = 1.5 % of the weight: 1.5 times the mass 5 % shorter).
+        theta = math.atan(float(v["runway.slope"]) / 100.0)
+        mu = min(float(v["runway.rolling_mu"]), float(v["runway.braking_mu"]))
+        cap = max(0.0, min(0.02, 0.5 * (mu * math.cos(theta) + math.sin(theta))))
+        v["aircraft.thrust.idle.t0"] = draw(st.floats(0.0, 1.0, exclude_max=True)) * cap * weight
         v["aircraft.thrust.idle.t1"] = -draw(st.floats(0.0, 2.5e-4)) * weight
         v["aircraft.thrust.idle.t2"] = draw(_within(KEYS["aircraft.thrust.idle.t2"], hi=0.0))
-        v["runway.braking_mu"] = draw(_within(KEYS["runway.braking_mu"], lo=0.08))
         v["conditions.headwind"] = draw(_within(KEYS["conditions.headwind"], lo=0.0))
         # L/W at touchdown = (V_TD/V_S)^2 C_L,ground / C_Lmax (definitions of V_S and L): below 0.9.
         ratio = float(v["procedure.touchdown_speed_ratio"])
@@ -173,6 +182,13 @@ def _heavier(values, factor) -> None:
           suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much])
 @given(scenario_values(realistic_idle=True), st.floats(1.0, 1.5))
 def test_heavier_is_not_shorter_at_realistic_idle_thrust(values, factor) -> None:
+    _heavier(values, factor)
+
+
+@pytest.mark.slow
+@many
+@given(scenario_values(realistic_idle=True), st.floats(1.0, 1.5))
+def test_heavier_is_not_shorter_many_examples(values, factor) -> None:
     _heavier(values, factor)
 
 
