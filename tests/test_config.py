@@ -194,3 +194,16 @@ def test_missing_file_and_bad_toml(tmp_path: Path) -> None:
     bad.write_text("[aircraft\nmass = 1", encoding="utf-8")
     with pytest.raises(ConfigError, match=r"bad\.toml: not valid TOML"):
         load_scenario(bad)
+
+
+def test_scenario_units_key_takes_its_choices_or_empty() -> None:
+    # "" is the key's default (not set: metres with feet beside them); anything else but si or aviation
+    # is a one-line error naming the key.
+    from click.testing import CliRunner
+
+    from landrisk.cli import main
+
+    for value, code in (('""', 0), ('"aviation"', 0), ('"si"', 0), ('"feet"', 2)):
+        r = CliRunner().invoke(main, ["solve", "--set", f"scenario.units={value}"])
+        assert r.exit_code == code, (value, r.output)
+    assert "scenario.units = 'feet'" in r.output and "si or aviation" in r.output

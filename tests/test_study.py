@@ -348,7 +348,8 @@ def test_cli_json_and_files(tmp_path: Path) -> None:
     for k in ("overruns_per_year", "overruns_per_year_ci95", "p_at_least_one_per_year", "mean_years_between"):
         assert k in rec["exposure"]
     assert rec["cases"][1]["overrides"] == {'uncertain."procedure.reaction_time".mode': "1.5 s"}
-    strict_json((out / "study.json").read_text())
+    recorded = strict_json((out / "study.json").read_text())
+    assert isinstance(recorded, dict) and str(recorded["command"]).startswith("landrisk study")
     table = pd.read_parquet(out / "study.parquet")
     csv = pd.read_csv(out / "study.csv", comment="#")
     assert list(table["case"]) == ["base", "quick"] == list(csv["case"])

@@ -418,7 +418,8 @@ def study(study_file: str, out_dir: str | None, as_json: bool, workers: int | No
     finally:
         bar.close()
     shown = api.display_units(result.base, units) if result.base is not None else units
-    written = ([str(p) for p in api.write_study(result, out_dir, force=True, units=shown)]
+    written = ([str(p) for p in api.write_study(result, out_dir, force=True, units=shown,
+                                                command=_command_line())]
                if out_dir else None)
     _write_report(out_dir, with_report, written, True)
     if as_json:

@@ -652,7 +652,8 @@ def render_study(r: StudyResult, written: list[str] | None = None, units: str | 
         lines.append(f"{c.name[:44]:<44} {c.method:<7} {prob:<32} {cov:>6} "
                      f"{p50 if p50 is None else round(p50):>7} {p99 if p99 is None else round(p99):>7}")
     if r.comparisons:
-        lines += ["", "Comparisons on common random numbers (the same input samples for both cases):"]
+        lines += ["", "Comparisons on common random numbers (the same Monte Carlo input samples for both "
+                  "cases; they use those samples only, not the subset-simulation estimates above):"]
     for cmp in r.comparisons:
         p = cmp.paired
         ratio = "ratio - (no overrun seen in one case)" if p.ratio is None or p.ratio_ci is None else \

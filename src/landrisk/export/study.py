@@ -92,9 +92,10 @@ def _comparison(c: ComparisonResult, landings: float | None) -> dict[str, Any]:
         "from_cache": c.cached,
     }
     if landings is not None:
-        out["overruns_avoided_per_year"] = -landings * p.difference
-        out["overruns_avoided_per_year_ci95"] = [-landings * p.difference_ci[1],
-                                                 -landings * p.difference_ci[0]]
+        # 0.0 - x, not -x: no "-0" where the difference is zero
+        out["overruns_avoided_per_year"] = 0.0 - landings * p.difference
+        out["overruns_avoided_per_year_ci95"] = [0.0 - landings * p.difference_ci[1],
+                                                 0.0 - landings * p.difference_ci[0]]
     return out
 
 
@@ -195,7 +196,7 @@ def _parquet(frame: pd.DataFrame, meta: dict[str, Any]) -> bytes:
 
 
 def write_study(r: StudyResult, folder: str | Path, *, force: bool = False, figures: bool = True,
-                units: str | None = None) -> list[Path]:
+                units: str | None = None, command: str | None = None) -> list[Path]:
     """study.json, study.csv, study.parquet and the figures (PNG and SVG) in ``folder`` (``units``: the
     distance columns of the tables in ``si`` or ``aviation`` units; the JSON stays SI)."""
     rec = study_record(r)
@@ -208,6 +209,6 @@ def write_study(r: StudyResult, folder: str | Path, *, force: bool = False, figu
     rec["table_parquet"] = "study.parquet"
     meta = {k: rec[k] for k in ("tool", "version", "caution", "study", "source", "seed", "samples", "method")}
     written = write_result_set(folder, "study.json", rec, {"study.csv": frame}, figs, r,
-                               inputs=rec["inputs"], force=force)
+                               inputs=rec["inputs"], force=force, command=command)
     written += write_files(Path(folder), {"study.parquet": _parquet(frame, meta)}, force=True)
     return written

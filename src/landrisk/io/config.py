@@ -414,7 +414,7 @@ def _typed(spec: Key, value: Any) -> Any:
         return value
     if not isinstance(value, str):
         raise ConfigError("must be text in quotes", key=spec.name, value=value)
-    if spec.choices and value not in spec.choices:
+    if spec.choices and value and value not in spec.choices:  # "" is the key's "not set"
         raise ConfigError("is not one of the choices", key=spec.name, value=value, allowed=spec.allowed())
     return value
 

@@ -70,7 +70,7 @@ class Key:
         if self.kind == "bool":
             return "true or false"
         if self.kind == "str":
-            return " or ".join(self.choices) if self.choices else "text"
+            return (" or ".join(self.choices) + ' (or "" for none)') if self.choices else "text"
         left = "(" if self.lo_open else "["
         right = ")" if self.hi_open else "]"
         rng = f"{left}{self.lo:g}, {self.hi:g}{right}"
