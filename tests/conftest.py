@@ -34,6 +34,41 @@ reaction_time = "3 s"
 DRY_FRICTION = 'rolling_mu = 0.03\nbraking_mu = 0.4'
 
 
+#: A small study of the invented study base scenario: two cases, a paired comparison and the yearly
+#: risk against a target (3 000 Monte Carlo samples per case in chunks of 1 000).
+SMALL_STUDY = """
+[study]
+scenario = "{base}"
+samples = 3000
+split = 1000
+seed = 5
+method = "mc"
+
+[[case]]
+name = "base"
+
+[[case]]
+name = "quick"
+'uncertain."procedure.reaction_time".mode' = "1.5 s"
+
+[[comparison]]
+baseline = "base"
+alternative = "quick"
+
+[exposure]
+landings_per_year = 8000
+target_per_year = 50
+"""
+
+
+def small_study_text() -> str:
+    """:data:`SMALL_STUDY` on configs/study-base-invented.toml."""
+    from pathlib import Path
+
+    base = Path(__file__).resolve().parents[1] / "configs" / "study-base-invented.toml"
+    return SMALL_STUDY.format(base=base.as_posix())
+
+
 def scenario_text(friction: str = DRY_FRICTION) -> str:
     """The tests' own scenario file as text, with ``friction`` as its runway friction lines."""
     return _SCENARIO.format(friction=friction)

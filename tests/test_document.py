@@ -18,6 +18,7 @@ from typing import Any
 import html5lib
 import pytest
 from click.testing import CliRunner
+from conftest import small_study_text
 
 from landrisk import CAUTION, INVENTED_NOTE, api, invented
 from landrisk.cli import main
@@ -75,30 +76,7 @@ def rare_dir(tmp_path_factory: pytest.TempPathFactory) -> Path:
 
 ROOT = Path(__file__).resolve().parents[1]
 
-#: A small study of the invented base scenario: two cases, a comparison and the yearly risk.
-STUDY = f"""
-[study]
-name = "document test"
-scenario = "{(ROOT / 'configs' / 'study-base-invented.toml').as_posix()}"
-samples = 4000
-seed = 5
-method = "mc"
-
-[[case]]
-name = "base"
-
-[[case]]
-name = "quick"
-'uncertain."procedure.reaction_time".mode' = "1.5 s"
-
-[[comparison]]
-baseline = "base"
-alternative = "quick"
-
-[exposure]
-landings_per_year = 8000
-target_per_year = 50
-"""
+STUDY = small_study_text()
 
 
 @pytest.fixture(scope="module")

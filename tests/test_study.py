@@ -13,6 +13,7 @@ import numpy as np
 import pandas as pd
 import pytest
 from click.testing import CliRunner
+from conftest import small_study_text
 from scipy import stats
 
 from landrisk import api
@@ -306,29 +307,7 @@ def test_mix_must_add_up(tmp_path: Path) -> None:
 # ------------------------------------------------------------------------------- CLI, JSON and files
 
 
-SMALL = f"""
-[study]
-scenario = "{BASE.as_posix()}"
-samples = 3000
-split = 1000
-seed = 5
-method = "mc"
-
-[[case]]
-name = "base"
-
-[[case]]
-name = "quick"
-'uncertain."procedure.reaction_time".mode' = "1.5 s"
-
-[[comparison]]
-baseline = "base"
-alternative = "quick"
-
-[exposure]
-landings_per_year = 8000
-target_per_year = 50
-"""
+SMALL = small_study_text()
 
 
 @pytest.mark.slow
