@@ -14,13 +14,13 @@ from scipy.integrate import quad
 from landrisk.errors import SolveError
 from landrisk.io import load_scenario
 from landrisk.model import solve_landings, solve_one
-from landrisk.model.solver import RUNAWAY_SPEED, _extremes, _integrals, _riccati
+from landrisk.model.solver import RUNAWAY_SPEED, _integrals, _riccati
 from landrisk.testing.reference import reference_braking_quad, reference_free_roll, reference_ground_roll
 
 
 def _piece(lo, hi, a, b, c, w):
     arr = [np.array([x], dtype=float) for x in (lo, hi, a, b, c)]
-    d, t = _integrals(*arr, np.array([w], dtype=float), *_extremes(*arr))
+    d, t, _ = _integrals(*arr, np.array([w], dtype=float))
     return float(d[0]), float(t[0])
 
 

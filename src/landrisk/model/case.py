@@ -79,9 +79,15 @@ class LandingCase:
         return LandingCase(**dict(zip(names, arrays, strict=True)), g=self.g)
 
     def take(self, index: slice | NDArray[np.intp] | NDArray[np.bool_]) -> LandingCase:
-        """The landings selected by ``index`` (fields must already be broadcast)."""
+        """The landings selected by ``index``: fields of shape (N,) are indexed, a field that holds one value
+        for every landing (of size 1) is kept as it is."""
         names = [f.name for f in fields(self) if f.name != "g"]
-        return LandingCase(**{n: getattr(self, n)[index] for n in names}, g=self.g)
+        return LandingCase(**{n: _rows(getattr(self, n), index) for n in names}, g=self.g)
+
+
+def _rows(x: NDArray, index: slice | NDArray[np.intp] | NDArray[np.bool_]) -> NDArray:
+    x = np.asarray(x)
+    return x if x.size == 1 else x[index]
 
 
 def _arr(x: ArrayLike) -> Array:

@@ -132,7 +132,9 @@ class _Forces:
     lift_off_speed: Array  # airspeed above which lift exceeds weight (inf if never)
 
 
-def _forces(c: LandingCase) -> _Forces:
+def _forces(c: LandingCase, n: int) -> _Forces:
+    """The force coefficients of the landings of ``c``, each broadcast to (n,) (a read-only view where
+    the inputs are the same for every landing, so that those are computed once)."""
     q = 0.5 * c.density * c.wing_area / c.mass
     k = induced_drag_factor(aspect_ratio(c.wing_span, c.wing_area), c.oswald)
     phi = ground_effect_factor(c.wing_height, c.wing_span)
@@ -144,15 +146,19 @@ def _forces(c: LandingCase) -> _Forces:
     use = c.use_reverse
     with np.errstate(divide="ignore", over="ignore"):
         lift_off = np.where(lift > 0, np.sqrt(g_cos / np.where(lift > 0, lift, 1.0)), np.inf)
+
+    def full(x: Any) -> Array:
+        return np.broadcast_to(x, (n,))
+
     return _Forces(
-        drag=q * cd,
-        lift=lift,
-        g_cos=g_cos,
-        g_sin=c.g * np.sin(c.slope_angle),
-        idle=idle,
-        braking_thrust=tuple(np.where(use, r, i) for r, i in zip(rev, idle, strict=True)),  # type: ignore[arg-type]
-        switch=np.where(use, c.reverse_cutoff_speed, -np.inf),
-        lift_off_speed=lift_off,
+        drag=full(q * cd),
+        lift=full(lift),
+        g_cos=full(g_cos),
+        g_sin=full(c.g * np.sin(c.slope_angle)),
+        idle=tuple(full(x) for x in idle),  # type: ignore[arg-type]
+        braking_thrust=tuple(full(np.where(use, r, i)) for r, i in zip(rev, idle, strict=True)),  # type: ignore[arg-type]
+        switch=full(np.where(use, c.reverse_cutoff_speed, -np.inf)),
+        lift_off_speed=full(lift_off),
     )
 
 
@@ -180,10 +186,6 @@ class _Piece:
     a: Array
     b: Array
     c: Array
-    a_lo: Array  # a at lo
-    a_hi: Array  # a at hi
-    a_min: Array
-    a_max: Array
 
 
 def _pieces(
@@ -222,8 +224,7 @@ def _pieces(
         mid = 0.5 * (hi + lo)
         thrust = tuple(np.where(mid > sw, h, i) for h, i in zip(th, fr.idle, strict=True))
         a, b, c = _coefficients(mid, fr, mur, thrust)  # type: ignore[arg-type]
-        ext = _extremes(lo, hi, a, b, c)
-        pieces.append(_Piece(rows, used, lo, hi, a, b, c, *ext))
+        pieces.append(_Piece(rows, used, lo, hi, a, b, c))
     return pieces
 
 
@@ -249,8 +250,8 @@ def _roll_integrals(
     time = np.zeros_like(v_lo)
     ok = np.ones(v_lo.shape, dtype=bool)
     for p in _pieces(v_lo, v_hi, f, mu, thrust_hi, switch):
-        ok[p.rows] &= (p.a_max < 0) | ~p.used
-        d, t = _piece_integrals(p, headwind[p.rows], method)
+        d, t, good = _piece_integrals(p, headwind[p.rows], method)
+        ok[p.rows] &= good | ~p.used
         dist[p.rows] += np.where(p.used, d, 0.0)
         time[p.rows] += np.where(p.used, t, 0.0)
     dist = np.where(ok, dist, np.inf)
@@ -258,20 +259,86 @@ def _roll_integrals(
     return dist, time, ok
 
 
-def _piece_integrals(p: _Piece, w: Array, method: str) -> tuple[Array, Array]:
-    """int (V - w)/(-a) dV and int dV/(-a) over each piece (meaningful where a < 0 on it)."""
+def _piece_integrals(p: _Piece, w: Array, method: str) -> tuple[Array, Array, NDArray[np.bool_]]:
+    """int (V - w)/(-a) dV, int dV/(-a) over each piece, and whether a < 0 on the whole piece (the
+    integrals are meaningful only there)."""
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         if method == "quadrature":
-            return _quadrature(p.lo, p.hi, p.a, p.b, p.c, w, p.a_min, p.a_max, GAUSS_LEGENDRE_ORDER)
-        return _integrals(p.lo, p.hi, p.a, p.b, p.c, w, p.a_lo, p.a_hi, p.a_min, p.a_max)
+            _, _, a_min, a_max = _extremes(p.lo, p.hi, p.a, p.b, p.c)
+            d, t = _quadrature(p.lo, p.hi, p.a, p.b, p.c, w, a_min, a_max, GAUSS_LEGENDRE_ORDER)
+            return d, t, a_max < 0
+        return _integrals(p.lo, p.hi, p.a, p.b, p.c, w)
+
+
+#: Gauss-Legendre points of the fast path of :func:`_integrals`, and the largest reciprocal root |u| of
+#: the normalised deceleration p(x) (see :func:`_closed_form`) for which it is used.
+GL_FAST_ORDER = 8
+GL_ROOT_LIMIT = 0.25
+# The positive nodes x_j as (x_j^2, weight): the nodes come in pairs +-x_j of equal weight.
+_GL_PAIRS = tuple((float(x * x), float(wt)) for x, wt in zip(*np.polynomial.legendre.leggauss(GL_FAST_ORDER),
+                                                                 strict=True) if x > 0)
 
 
 def _integrals(
-    lo: Array, hi: Array, a: Array, b: Array, c: Array, w: Array, a_lo: Array, a_hi: Array,
-    a_min: Array, a_max: Array,
-) -> tuple[Array, Array]:
-    """:func:`_closed_form` where it is well conditioned, :func:`_quadrature` (high order) elsewhere."""
+    lo: Array, hi: Array, a: Array, b: Array, c: Array, w: Array
+) -> tuple[Array, Array, NDArray[np.bool_]]:
+    """S = int (V - w)/(-q) dV and T = int dV/(-q) on [lo, hi], q = a + b V + c V^2, and whether q < 0
+    on the whole of [lo, hi] (S and T are meaningful only there; an empty piece counts as q < 0).
+
+    With the midpoint m, half-width h and x = (V - m)/h, q = q(m) p(x), p(x) = 1 + beta x + gamma x^2 =
+    (1 - u1 x)(1 - u2 x), u1 and u2 the reciprocal roots of p (:func:`_closed_form`). Where q(m) < 0 and
+    max |u| <= GL_ROOT_LIMIT, p >= (1 - |u|)^2 > 0 on [-1, 1], so q < 0 throughout, and the integrands
+    1/p and x/p are analytic inside the Bernstein ellipse E_rho of semi-major axis R = 3.5 (|x| <= R
+    there, so |1 - u x| >= 1 - 0.25 R = 1/8 and |p| >= 1/64; rho = R + sqrt(R^2 - 1) = 6.85): n-point
+    Gauss-Legendre quadrature then errs by at most (64/15) M rho^(-2n) / (rho^2 - 1) (Trefethen,
+    *Approximation Theory and Approximation Practice*, SIAM 2013, Theorem 19.3; constant from memory),
+    with M = 64 for 1/p and 64 R for x/p: for n = 8 under 3e-13 and 9e-13, against I0 = int dx/p >=
+    2/(1 + |u|)^2 > 1.28 and S ~ int (1 + x)/p dx > 1.28 (since m - w >= h). The symmetric nodes
+    are taken in pairs: with A = 1 + gamma x_j^2 and B = beta x_j, 1/p(x_j) + 1/p(-x_j) =
+    2 A / (A^2 - B^2) and x_j/p(x_j) - x_j/p(-x_j) = -2 beta x_j^2 / (A^2 - B^2), so a pair costs one
+    division.
+    Elsewhere the closed form (:func:`_closed_form`), or high-order quadrature where that would lose
+    digits. Every operation is element by element, so a landing's result does not depend on the
+    others evaluated with it.
+    """
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        mid = 0.5 * (hi + lo)
+        h = 0.5 * (hi - lo)
+        qm = a + mid * (b + mid * c)
+        k = h / qm
+        beta = (b + 2.0 * c * mid) * k
+        gam = c * h * k
+        bb = beta * beta
+        fast = (np.abs(beta) + np.sqrt(np.abs(bb - 4.0 * gam)) <= 2.0 * GL_ROOT_LIMIT) & (qm < 0)
+        s0: Any = 0.0
+        s1: Any = 0.0
+        for x2, wt in _GL_PAIRS:
+            big_a = 1.0 + gam * x2
+            inv = wt / (big_a * big_a - bb * x2)
+            s0 = s0 + big_a * inv
+            s1 = s1 + x2 * inv
+        # I0 = 2 s0, I1 = -2 beta s1; T = -k I0, S = -k ((m - w) I0 + h I1).
+        time = -2.0 * k * s0
+        dist = -2.0 * k * ((mid - w) * s0 - h * beta * s1)
+    if fast.all():
+        return dist, time, fast
+    i = np.flatnonzero(~fast)
+    dist[i], time[i], ok = _slow_integrals(lo[i], hi[i], _at(a, i), _at(b, i), _at(c, i), _at(w, i))
+    fast[i] = ok
+    return dist, time, fast
+
+
+def _slow_integrals(
+    lo: Array, hi: Array, a: Array, b: Array, c: Array, w: Array
+) -> tuple[Array, Array, NDArray[np.bool_]]:
+    """:func:`_integrals` where Gauss-Legendre is not used: an empty piece is 0; a piece where q < 0
+    throughout by :func:`_closed_form` where it is well conditioned, :func:`_quadrature` (high order)
+    elsewhere; a piece where q >= 0 somewhere is returned with ok False (its values are not used)."""
+    a, b, c, w = (np.broadcast_to(x, lo.shape) for x in (a, b, c, w))
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        a_lo, a_hi, a_min, a_max = _extremes(lo, hi, a, b, c)
+        empty = hi == lo
+        ok = (a_max < 0) | empty
         dist, time, bad = _closed_form(lo, hi, a, b, c, w, a_lo, a_hi)
     bad &= a_max < 0  # where a >= 0 somewhere the result is infinite anyway (flagged by the caller)
     if bad.any():
@@ -279,7 +346,14 @@ def _integrals(
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             dist[i], time[i] = _quadrature(lo[i], hi[i], a[i], b[i], c[i], w[i], a_min[i], a_max[i],
                                            FALLBACK_ORDER)
-    return dist, time
+    dist = np.where(empty, 0.0, dist)
+    time = np.where(empty, 0.0, time)
+    return dist, time, ok
+
+
+def _at(x: Array, i: NDArray[np.intp]) -> Array:
+    """x[i], or x itself where x is one value for every landing (a 0-d array or a float)."""
+    return x if np.ndim(x) == 0 else x[i]
 
 
 def _closed_form(
@@ -315,47 +389,8 @@ def _closed_form(
     delta = beta * beta - 4.0 * gam
     r = np.sqrt(np.abs(delta))
     xi = mid - w
-    # Reciprocal roots u of p (p = (1 - u1 x)(1 - u2 x)): |u| = sqrt(gamma) if complex, else
-    # (|beta| + r)/2. Where max |u| <= SERIES_RADIUS, the power series of 1/p.
-    series = np.where(delta < 0, gam <= SERIES_RADIUS**2, np.abs(beta) + r <= 2.0 * SERIES_RADIUS)
-    bad = np.zeros(lo.shape, dtype=bool)
-    if series.all():
-        i0, i1 = _series(beta, gam)
-        comb = xi * i0 + h * i1
-    else:
-        i0 = np.empty_like(lo)
-        comb = np.empty_like(lo)
-        if series.any():
-            j = np.flatnonzero(series)
-            i0[j], i1 = _series(beta[j], gam[j])
-            comb[j] = xi[j] * i0[j] + h[j] * i1
-        j = np.flatnonzero(~series)
-        i0[j], comb[j], bad[j] = _closed_terms(beta[j], gam[j], delta[j], r[j], a_lo[j] / qm[j],
-                                               a_hi[j] / qm[j], xi[j], h[j])
+    i0, comb, bad = _closed_terms(beta, gam, delta, r, a_lo / qm, a_hi / qm, xi, h)
     return -k * comb, -k * i0, bad
-
-
-#: Largest reciprocal root |u| of p for which the power series is used, and its number of terms:
-#: the terms fall like |u|^n, 2 |u|^N / (1 - |u|) < 1e-16 of I0 ~ 2.
-SERIES_RADIUS = 0.12
-SERIES_TERMS = 19
-
-
-def _series(beta: Array, gam: Array) -> tuple[Array, Array]:
-    """I0 and I1 from 1/p(x) = sum h_n x^n, h_n = -beta h_(n-1) - gamma h_(n-2) (h_0 = 1, h_1 = -beta),
-    int_-1^1 x^n dx = 2/(n + 1) for even n, 0 for odd n; a fixed number of terms."""
-    nb, ng = -beta, -gam
-    h0 = np.ones_like(beta)
-    h1 = nb
-    i0 = 2.0 * h0
-    i1 = (2.0 / 3.0) * h1
-    for n in range(2, SERIES_TERMS):
-        h0, h1 = h1, nb * h1 + ng * h0
-        if n % 2 == 0:
-            i0 = i0 + (2.0 / (n + 1)) * h1
-        else:
-            i1 = i1 + (2.0 / (n + 2)) * h1
-    return i0, i1
 
 
 def _closed_terms(
@@ -552,11 +587,8 @@ def _trajectory_distance(
     """
     sgn = np.where(q0 < 0, 1.0, -1.0)  # sgn q < 0 along the way
     lo, hi = np.minimum(v0, v1), np.maximum(v0, v1)
-    q_lo = np.where(v0 < v1, q0, q1) * sgn
-    q_hi = np.where(v0 < v1, q1, q0) * sgn
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        d, _ = _integrals(lo, hi, sgn * a, sgn * b, sgn * c, w, q_lo, q_hi, np.minimum(q_lo, q_hi),
-                          np.maximum(q_lo, q_hi))
+        d, _, _ = _integrals(lo, hi, sgn * a, sgn * b, sgn * c, w)
         settled = np.isfinite(root) & (np.abs(q1) <= 1e-3 * np.abs(q0))
         g_r = b + 2.0 * c * root
         den = g_r + c * (v1 - root)
@@ -613,8 +645,8 @@ def _free_roll_pieces(v0: Array, tau: Array, w: Array, f: _Forces, mu: Array) ->
         open_ = np.ones(dec.size, dtype=bool)
         for p in reversed(_pieces(w[dec], v0[dec], fd, mud, fd.idle, no_switch[dec])):
             rows = np.arange(dec.size)[p.rows]
-            d, t = _piece_integrals(p, w[dec][rows], "closed")
-            t = np.where(p.a_max < 0, t, np.inf)
+            d, t, good = _piece_integrals(p, w[dec][rows], "closed")
+            t = np.where(good, t, np.inf)
             act = open_[rows] & p.used
             through = act & (t < left[dec][rows])
             gi = dec[rows[through]]
@@ -627,7 +659,7 @@ def _free_roll_pieces(v0: Array, tau: Array, w: Array, f: _Forces, mu: Array) ->
                 top = p.hi[k]
                 vk, qk, rk, _ = _riccati(top, left[gi], p.a[k], p.b[k], p.c[k])
                 vk = np.clip(vk, p.lo[k], top)
-                q_top = p.a_hi[k]
+                q_top = p.a[k] + top * (p.b[k] + top * p.c[k])
                 x_out[gi] += _trajectory_distance(top, vk, q_top, qk, rk, left[gi], w[gi], p.a[k],
                                                   p.b[k], p.c[k])
                 v_out[gi] = vk
@@ -642,10 +674,9 @@ def _free_roll_pieces(v0: Array, tau: Array, w: Array, f: _Forces, mu: Array) ->
         a, b, c = _coefficients(vi, fi, mui, fi.idle)
         lift_off = np.maximum(fi.lift_off_speed, vi)
         cross = np.isfinite(lift_off) & (vi < lift_off)
-        ext = _extremes(vi, np.where(cross, lift_off, vi), -a, -b, -c)
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            d, t = _integrals(vi, np.where(cross, lift_off, vi), -a, -b, -c, wi, *ext)
-        reach = cross & (ext[3] < 0) & (t < ti)  # q > 0 up to the lift-off speed, reached in time
+            d, t, up = _integrals(vi, np.where(cross, lift_off, vi), -a, -b, -c, wi)
+        reach = cross & up & (t < ti)  # q > 0 up to the lift-off speed, reached in time
         x1 = np.where(reach, d, 0.0)
         t_left = np.where(reach, ti - t, ti)
         start = np.where(reach, lift_off, vi)
@@ -757,10 +788,9 @@ def _speed_at_braking_distance(
     open_ = np.ones(target.shape, dtype=bool)
     for piece in _pieces(w, v_top, f, mu, f.braking_thrust, f.switch):
         rows: NDArray[np.intp] = np.arange(w.size)[piece.rows]
-        p = _Piece(rows, piece.used, piece.lo, piece.hi, piece.a, piece.b, piece.c, piece.a_lo, piece.a_hi,
-                   piece.a_min, piece.a_max)
+        p = _Piece(rows, piece.used, piece.lo, piece.hi, piece.a, piece.b, piece.c)
         ww = w[rows]
-        d, _ = _piece_integrals(p, ww, method)
+        d, _, _ = _piece_integrals(p, ww, method)
         d = np.where(p.used, d, 0.0)
         here = open_[rows] & p.used & (d >= remaining[rows])
         passing = open_[rows] & ~here
@@ -771,9 +801,8 @@ def _speed_at_braking_distance(
             rem = remaining[rows[k]]
 
             def residual(v: Array, j: NDArray[np.intp], lo=lo, a=a, b=b, c=c, wk=wk, rem=rem):
-                part = _Piece(slice(None), np.ones(j.size, dtype=bool), lo[j], v, a[j], b[j], c[j],
-                              *_extremes(lo[j], v, a[j], b[j], c[j]))
-                dist, _ = _piece_integrals(part, wk[j], method)
+                part = _Piece(slice(None), np.ones(j.size, dtype=bool), lo[j], v, a[j], b[j], c[j])
+                dist, _, _ = _piece_integrals(part, wk[j], method)
                 return dist - rem[j], (v - wk[j]) / -(a[j] + v * (b[j] + v * c[j]))
 
             decel = np.maximum(-(a + lo * (b + lo * c)), 1e-9)
@@ -798,14 +827,9 @@ def _speed_at_free_roll_distance(
 
 
 
-def _solve_chunk(c: LandingCase, method: str) -> dict[str, NDArray]:
+def _air_distance(c: LandingCase, vs: Array, given: NDArray[np.bool_]) -> tuple[Array, Array, Array]:
+    """Approach, flare and air distance: the flare model, or the given touchdown point where ``given``."""
     w = c.headwind
-    vs = stall_speed(c.mass, c.density, c.wing_area, c.cl_max, c.g)
-    v_td = c.touchdown_speed_ratio * vs
-    if np.any(v_td - w <= 0):
-        n = int(np.count_nonzero(v_td - w <= 0))
-        raise ValueError(f"headwind at or above the touchdown speed in {n} landing(s)")
-    given = c.touchdown_given
     # The flare model needs h / tan(gamma) to be a number: an angle so shallow that it is not (or that
     # is zero once in radians) is refused with its value rather than carried as inf or NaN.
     with np.errstate(divide="ignore", over="ignore"):
@@ -833,14 +857,37 @@ def _solve_chunk(c: LandingCase, method: str) -> dict[str, NDArray]:
     if not np.all(np.isfinite(air)):
         raise ValueError("procedure.approach_angle: the air distance overflows in "
                          f"{int(np.count_nonzero(~np.isfinite(air)))} landing(s) (approach path too shallow)")
+    return approach, flare, air
 
-    f = _forces(c)
+
+def _solve_chunk(c: LandingCase, method: str, n: int) -> dict[str, NDArray]:
+    """The n landings of ``c`` (fields of shape (n,) or one value for all); results of shape (n,), or
+    one value where it is the same for every landing (the caller broadcasts)."""
+
+    def full(x: Any) -> Array:
+        return np.broadcast_to(x, (n,))
+
+    w = full(c.headwind)
+    vs = stall_speed(c.mass, c.density, c.wing_area, c.cl_max, c.g)
+    v_td = full(c.touchdown_speed_ratio * vs)
+    if np.any(v_td - w <= 0):
+        count = int(np.count_nonzero(v_td - w <= 0))
+        raise ValueError(f"headwind at or above the touchdown speed in {count} landing(s)")
+    given = c.touchdown_given
+    if np.all(given):  # the touchdown point is given for every landing: no flare model
+        approach = flare = np.zeros(())
+        air = full(c.touchdown_distance)
+    else:
+        approach, flare, air = _air_distance(c, vs, given)
+
+    f = _forces(c, n)
     lifted = f.lift * v_td * v_td > f.g_cos
-    no_switch = np.full_like(w, -np.inf)
+    no_switch = full(-np.inf)
+    rolling_mu, braking_mu, lda = full(c.rolling_mu), full(c.braking_mu), full(c.lda)
 
     # Free roll: time integration; where the ground speed reaches zero first, the stop in closed form.
-    v_b, x_free = _free_roll(v_td, c.reaction_time, w, f, c.rolling_mu, method)
-    t_free = c.reaction_time.copy()
+    v_b, x_free = _free_roll(v_td, full(c.reaction_time), w, f, rolling_mu, method)
+    t_free = np.array(full(c.reaction_time))
     stopped = v_b <= w
     # Thrust above every retarding force and growing faster than drag: the speed runs to infinity.
     runaway = ~(v_b <= RUNAWAY_SPEED) & ~stopped
@@ -848,30 +895,30 @@ def _solve_chunk(c: LandingCase, method: str) -> dict[str, NDArray]:
     if stopped.any():
         i = np.flatnonzero(stopped)
         fi = _take_forces(f, i)
-        d, t, ok = _roll_integrals(w[i], v_td[i], w[i], fi, c.rolling_mu[i], fi.idle, no_switch[i], method)
+        d, t, ok = _roll_integrals(w[i], v_td[i], w[i], fi, rolling_mu[i], fi.idle, no_switch[i], method)
         x_free[i], t_free[i], cannot[i], v_b[i] = d, t, ~ok, w[i]
     if runaway.any():
         v_b = np.where(runaway, np.inf, v_b)
         x_free = np.where(runaway, np.inf, x_free)
 
     # Braking roll from the brake-application airspeed down to zero ground speed.
-    brake, t_brake, ok = _roll_integrals(w, np.where(runaway, w, v_b), w, f, c.braking_mu,
+    brake, t_brake, ok = _roll_integrals(w, np.where(runaway, w, v_b), w, f, braking_mu,
                                          f.braking_thrust, f.switch, method)
     brake = np.where(stopped, 0.0, np.where(runaway, np.inf, brake))
     t_brake = np.where(stopped, 0.0, np.where(runaway, np.inf, t_brake))
     cannot |= ~ok & ~stopped
 
     total = air + x_free + brake
-    margin = c.lda - total
-    over = total > c.lda
+    margin = lda - total
+    over = total > lda
     # Ground speed at the runway end: filled in afterwards for all overruns of the call together.
     # A landing that never stops passes the end at least at its brake-application ground speed.
     end_speed = np.where(cannot, v_b - w, 0.0)
-    beyond = np.where(over, total - c.lda, 0.0)
+    beyond = np.where(over, total - lda, 0.0)
     return {
         "_free_roll_time": t_free,
         "approach_m": approach, "flare_m": flare, "air_distance_m": air, "free_roll_m": x_free,
-        "braking_m": brake, "total_m": total, "lda_m": c.lda.copy(), "margin_m": margin,
+        "braking_m": brake, "total_m": total, "lda_m": c.lda, "margin_m": margin,
         "stall_speed": vs, "touchdown_speed": v_td, "touchdown_ground_speed": v_td - w,
         "brake_speed": v_b, "time_to_stop_s": t_free + t_brake, "overrun": over,
         "runway_end_ground_speed": end_speed, "beyond_end_m": beyond,
@@ -881,23 +928,25 @@ def _solve_chunk(c: LandingCase, method: str) -> dict[str, NDArray]:
 
 def _overrun_speeds(c: LandingCase, r: dict[str, NDArray], method: str) -> Array:
     """Ground speed at the runway end of overrunning landings ``c`` with their chunk results ``r``."""
-    f = _forces(c)
-    w = c.headwind
     air, x_free, brake = r["air_distance_m"], r["free_roll_m"], r["braking_m"]
+    n = air.size
+    f = _forces(c, n)
+    w, braking_mu, rolling_mu, lda = (np.broadcast_to(x, (n,)) for x in (c.headwind, c.braking_mu,
+                                                                         c.rolling_mu, c.lda))
     v_b, v_td = r["brake_speed"], r["touchdown_speed"]
-    out = np.zeros_like(w)
-    excess = air + x_free + brake - c.lda  # distance still to go at the runway end
+    out = np.zeros(n)
+    excess = air + x_free + brake - lda  # distance still to go at the runway end
     in_braking = excess <= brake
     in_free = ~in_braking & (excess <= brake + x_free)
     if in_braking.any():
         i = np.flatnonzero(in_braking)
-        v = _speed_at_braking_distance(excess[i], v_b[i], w[i], _take_forces(f, i), c.braking_mu[i],
+        v = _speed_at_braking_distance(excess[i], v_b[i], w[i], _take_forces(f, i), braking_mu[i],
                                        method)
         out[i] = v - w[i]
     if in_free.any():
         i = np.flatnonzero(in_free)
         v = _speed_at_free_roll_distance(
-            c.lda[i] - air[i], r["_free_roll_time"][i], v_td[i], w[i], _take_forces(f, i), c.rolling_mu[i],
+            lda[i] - air[i], r["_free_roll_time"][i], v_td[i], w[i], _take_forces(f, i), rolling_mu[i],
             method,
         )
         out[i] = v - w[i]
@@ -933,22 +982,21 @@ def solve_landings(case: LandingCase, method: str = "closed") -> LandingResult:
     """
     if method not in METHODS:
         raise ValueError(f"unknown method {method!r}; choose one of {', '.join(METHODS)}")
-    full = case.broadcast()
-    n = full.size
+    n = case.size
     if n == 0:
         raise ValueError("no landings to solve")
     out: dict[str, NDArray] = {}
     for start in range(0, n, CHUNK):
-        part = _solve_chunk(full.take(slice(start, start + CHUNK)), method)
+        part = _solve_chunk(case.take(slice(start, start + CHUNK)), method, min(CHUNK, n - start))
         if not out:
-            out = {k: np.empty(n, dtype=v.dtype) for k, v in part.items()}
+            out = {k: np.empty(n, dtype=np.asarray(v).dtype) for k, v in part.items()}
         for k, v in part.items():
             out[k][start : start + CHUNK] = v
     overruns = np.flatnonzero(out["overrun"] & ~out["cannot_stop"])
     for start in range(0, overruns.size, CHUNK):
         i = overruns[start : start + CHUNK]
         out["runway_end_ground_speed"][i] = _overrun_speeds(
-            full.take(i), {k: v[i] for k, v in out.items()}, method)
+            case.take(i), {k: v[i] for k, v in out.items()}, method)
     del out["_free_roll_time"]
     return LandingResult(**out)
 
