@@ -188,7 +188,7 @@ def test_riccati_with_linear_force_law_is_the_exponential(b: float) -> None:
     # Boyce & DiPrima, *Elementary Differential Equations*, 10th ed. 2012, section 2.1). The earlier form
     # of the real-k branch cancelled 1 - g0/2k to rounding noise here (relative error ~ 1e-8 at b t = 20).
     a, v0, tau = -9.80665, 60.0, 1.0
-    v, rate, _, blow = _riccati(*(np.array([x]) for x in (v0, tau, a, b, 0.0)))
+    v, rate, blow = _riccati(*(np.array([x]) for x in (v0, tau, a, b, 0.0)))
     r = -a / b
     exact = r + (v0 - r) * np.exp(b * tau)
     assert not blow[0]

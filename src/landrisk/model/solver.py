@@ -301,25 +301,60 @@ def _integrals(
     digits. Every operation is element by element, so a landing's result does not depend on the
     others evaluated with it.
     """
+    # Written with in-place operations: this is the solver's innermost work (several pieces a landing).
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        mid = 0.5 * (hi + lo)
-        h = 0.5 * (hi - lo)
-        qm = a + mid * (b + mid * c)
+        mid = hi + lo
+        mid *= 0.5
+        h = hi - lo
+        h *= 0.5
+        qm = mid * c
+        qm += b
+        qm *= mid
+        qm += a  # q(m)
         k = h / qm
-        beta = (b + 2.0 * c * mid) * k
-        gam = c * h * k
+        beta = c * mid
+        beta *= 2.0
+        beta += b
+        beta *= k  # q'(m) h / q(m)
+        gam = c * h
+        gam *= k  # c h^2 / q(m)
         bb = beta * beta
-        fast = (np.abs(beta) + np.sqrt(np.abs(bb - 4.0 * gam)) <= 2.0 * GL_ROOT_LIMIT) & (qm < 0)
-        s0: Any = 0.0
-        s1: Any = 0.0
+        tmp = gam * -4.0
+        tmp += bb
+        np.abs(tmp, out=tmp)
+        np.sqrt(tmp, out=tmp)
+        tmp += np.abs(beta)  # |beta| + sqrt|delta| = 2 max |u| for real roots, >= it for complex ones
+        fast = tmp <= 2.0 * GL_ROOT_LIMIT
+        fast &= qm < 0
+        # Per pair, A^2 - B^2 = 1 + P x^2 + Q x^4 with P = 2 gamma - beta^2, Q = gamma^2; the sums
+        # s_a = sum w/(A^2 - B^2) and s1 = sum w x^2/(A^2 - B^2) give s0 = sum w A/(A^2 - B^2) =
+        # s_a + gamma s1.
+        pp = gam * 2.0
+        pp -= bb
+        qq = gam * gam
+        s_a = np.zeros(tmp.shape)
+        s1 = np.zeros(tmp.shape)
         for x2, wt in _GL_PAIRS:
-            big_a = 1.0 + gam * x2
-            inv = wt / (big_a * big_a - bb * x2)
-            s0 = s0 + big_a * inv
-            s1 = s1 + x2 * inv
+            np.multiply(qq, x2, out=tmp)
+            tmp += pp
+            tmp *= x2
+            tmp += 1.0
+            np.divide(wt, tmp, out=tmp)
+            s_a += tmp
+            tmp *= x2
+            s1 += tmp
         # I0 = 2 s0, I1 = -2 beta s1; T = -k I0, S = -k ((m - w) I0 + h I1).
-        time = -2.0 * k * s0
-        dist = -2.0 * k * ((mid - w) * s0 - h * beta * s1)
+        s0 = gam * s1
+        s0 += s_a
+        time = s0 * k
+        time *= -2.0
+        dist = mid - w
+        dist *= s0
+        h *= beta
+        h *= s1
+        dist -= h
+        dist *= k
+        dist *= -2.0
     if fast.all():
         return dist, time, fast
     i = np.flatnonzero(~fast)
@@ -500,83 +535,105 @@ def _gauss_legendre(
 # --- Free roll ----------------------------------------------------------------------------------------
 
 
-def _riccati(
-    v0: Array, tau: Array, a: Array, b: Array, c: Array
-) -> tuple[Array, Array, Array, NDArray[np.bool_]]:
+def _riccati(v0: Array, tau: Array, a: Array, b: Array, c: Array) -> tuple[Array, Array, NDArray[np.bool_]]:
     """Exact solution of dV/dt = a + b V + c V^2 from V(0) = v0 over ``tau`` seconds.
 
     With q0 = a(v0), g0 = a'(v0) and k^2 = g0^2/4 - c q0 (a quarter of the discriminant), the Riccati
     equation with constant coefficients is solved by V = v0 + q0 S / D, D = cosh(k t) - g0 S / 2,
     S = sinh(k t) / k (for k^2 < 0, cos and sin of |k| t), and then dV/dt = q0 / D^2 (substitute; e.g.
     Polyanin & Zaitsev, *Handbook of Exact Solutions for Ordinary Differential Equations*, 2nd ed. 2003,
-    1.2.1; from memory). Written with e^(-2 k t) so that nothing overflows for k t large.
+    1.2.1; from memory). Where |k t| <= 1/2, cosh and sinh by their power series; elsewhere written with
+    e^(-2 k t) so that nothing overflows for k t large.
 
-    Returns V(tau), dV/dt at tau, the approached equilibrium (real k with the solution bounded: the
-    root v0 + q0 / (k - g0/2); NaN otherwise) and whether V runs to infinity before tau (D reaches 0).
+    Returns V(tau), dV/dt at tau and whether V runs to infinity before tau (D reaches 0). The
+    equilibrium the solution may approach is :func:`_equilibrium`.
     """
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore", under="ignore"):
+        q0 = a + v0 * (b + v0 * c)
+        g0 = b + 2.0 * c * v0
+        k2 = 0.25 * g0 * g0 - c * q0
+        z = k2 * tau * tau
+        small = np.abs(z) <= 0.25
+        if small.all():
+            return _riccati_series(v0, tau, q0, g0, z)
+        v = np.empty(np.broadcast(v0, tau, q0).shape)
+        rate = np.empty_like(v)
+        blow = np.empty(v.shape, dtype=bool)
+        j = np.flatnonzero(small)
+        if j.size:
+            v[j], rate[j], blow[j] = _riccati_series(_at(v0, j), _at(tau, j), q0[j], g0[j], z[j])
+        j = np.flatnonzero(~small)
+        v[j], rate[j], blow[j] = _riccati_large(_at(v0, j), _at(tau, j), q0[j], g0[j], k2[j], _at(c, j))
+    return v, rate, blow
+
+
+def _riccati_series(v0: Array, tau: Array, q0: Array, g0: Array, z: Array) -> tuple[Array, Array, Array]:
+    """:func:`_riccati` for |z| = |k^2 t^2| <= 1/4: cosh(k t) = sum z^n/(2n)!, sinh(k t)/k =
+    t sum z^n/(2n+1)! (cos and sin where z < 0); 8 terms leave less than 0.25^8/16! ~ 7e-19."""
+    cc = np.full(z.shape, 1.0 / _FACT[14])
+    ss = np.full(z.shape, 1.0 / _FACT[15])
+    for n in range(6, -1, -1):
+        cc *= z
+        cc += 1.0 / _FACT[2 * n]
+        ss *= z
+        ss += 1.0 / _FACT[2 * n + 1]
+    ss *= tau
+    d = g0 * ss
+    d *= -0.5
+    d += cc  # D = cosh - g0 S / 2
+    y = q0 * ss
+    y /= d
+    y += v0
+    rate = q0 / d
+    rate /= d
+    return y, rate, (d <= 0) & (q0 != 0)
+
+
+def _riccati_large(
+    v0: Array, tau: Array, q0: Array, g0: Array, k2: Array, c: Array
+) -> tuple[Array, Array, Array]:
+    """:func:`_riccati` for |k t| > 1/2, with e^(-2 k t) for real k and cos, sin for imaginary k."""
+    kk = np.sqrt(np.abs(k2))
+    x = kk * tau
+    real = k2 >= 0
+    # Real k: 2 e^(-kt) D = (1 + e) - g0 tau phi, 2 e^(-kt) S = 2 tau phi, e = e^(-2kt),
+    # phi = (1 - e)/(2 k t).
+    e = np.exp(-2.0 * x)
+    phi = -np.expm1(-2.0 * x) / (2.0 * x)
+    # g0 tau phi = s (1 - e), s = g0 / 2k; then 2 e^(-kt) D = (1 - s) + e (1 + s), and for g0 > 0
+    # 1 - s = (4k^2 - g0^2) / (2k (2k + g0)) = -4 c q0 / (2k (2k + g0)): without the cancellation
+    # of 1 - s that would leave rounding noise where c q0 << g0^2 (a thrust that grows with
+    # speed faster than drag: D ~ e^(-2kt) then). D underflowing to 0 is a speed beyond the
+    # floating-point range before tau, flagged with the speeds that run to infinity.
+    s_ = 0.5 * g0 / kk
+    one_minus_s = np.where(g0 > 0, -4.0 * c * q0 / (2.0 * kk * (2.0 * kk + g0)), 1.0 - s_)
+    den_r = one_minus_s + e * (1.0 + s_)
+    # Imaginary k: D = cos(kt) - g0/2 sin(kt)/k, valid while D > 0 (before its first zero).
+    sn = np.sin(x) / kk
+    d_i = np.cos(x) - 0.5 * g0 * sn
+    y = np.where(real, q0 * 2.0 * tau * phi / den_r, q0 * sn / d_i)
+    rate = np.where(real, q0 * 4.0 * e / (den_r * den_r), q0 / (d_i * d_i))
+    blow = np.where(real, den_r <= 0, (d_i <= 0) | (x >= np.pi))
+    moving = q0 != 0  # q0 = 0: at rest on an equilibrium (the formulas would give 0/0 where e underflows)
+    return v0 + np.where(moving, y, 0.0), np.where(moving, rate, 0.0), blow & moving
+
+
+def _equilibrium(v0: Array, a: Array, b: Array, c: Array) -> Array:
+    """The equilibrium airspeed that the solution of :func:`_riccati` from v0 approaches: with k real and
+    k > g0/2, the root v0 + q0 / (k - g0/2) of a + b V + c V^2; NaN where there is none."""
     q0 = a + v0 * (b + v0 * c)
     g0 = b + 2.0 * c * v0
     k2 = 0.25 * g0 * g0 - c * q0
-    z = k2 * tau * tau
-    small = np.abs(z) <= 0.25
-    y = np.empty_like(v0)
-    rate = np.empty_like(v0)
-    blow = np.empty(v0.shape, dtype=bool)
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore", under="ignore"):
-        j = slice(None) if small.all() else np.flatnonzero(small)
-        if not isinstance(j, slice) and j.size == 0:
-            pass
-        else:
-            # cosh(k t) = sum z^n/(2n)!, sinh(k t)/k = t sum z^n/(2n+1)!, z = k^2 t^2 (cos, sin if < 0):
-            # 9 terms leave less than 0.25^9/18! ~ 6e-22.
-            zj = z[j]
-            cc = np.full_like(zj, 1.0 / _FACT[18])
-            ss = np.full_like(zj, 1.0 / _FACT[19])
-            for n in range(8, -1, -1):
-                cc = cc * zj + 1.0 / _FACT[2 * n]
-                ss = ss * zj + 1.0 / _FACT[2 * n + 1]
-            ss = ss * tau[j]
-            d = cc - 0.5 * g0[j] * ss
-            y[j] = q0[j] * ss / d
-            rate[j] = q0[j] / (d * d)
-            blow[j] = d <= 0
-        if not small.all():
-            j = np.flatnonzero(~small)
-            kk = np.sqrt(np.abs(k2[j]))
-            x = kk * tau[j]
-            real = k2[j] >= 0
-            tj, gj, qj = tau[j], g0[j], q0[j]
-            # Real k: 2 e^(-kt) D = (1 + e) - g0 tau phi, 2 e^(-kt) S = 2 tau phi, e = e^(-2kt),
-            # phi = (1 - e)/(2 k t).
-            e = np.exp(-2.0 * x)
-            phi = -np.expm1(-2.0 * x) / (2.0 * x)
-            # g0 tau phi = s (1 - e), s = g0 / 2k; then 2 e^(-kt) D = (1 - s) + e (1 + s), and for g0 > 0
-            # 1 - s = (4k^2 - g0^2) / (2k (2k + g0)) = -4 c q0 / (2k (2k + g0)): without the cancellation
-            # of 1 - s that would leave rounding noise where c q0 << g0^2 (a thrust that grows with
-            # speed faster than drag: D ~ e^(-2kt) then). D underflowing to 0 is a speed beyond the
-            # floating-point range before tau, flagged with the speeds that run to infinity.
-            s_ = 0.5 * gj / kk
-            one_minus_s = np.where(gj > 0, -4.0 * c[j] * qj / (2.0 * kk * (2.0 * kk + gj)), 1.0 - s_)
-            den_r = one_minus_s + e * (1.0 + s_)
-            # Imaginary k: D = cos(kt) - g0/2 sin(kt)/k, valid while D > 0 (before its first zero).
-            sn = np.sin(x) / kk
-            d_i = np.cos(x) - 0.5 * gj * sn
-            y[j] = np.where(real, qj * 2.0 * tj * phi / den_r, qj * sn / d_i)
-            rate[j] = np.where(real, qj * 4.0 * e / (den_r * den_r), qj / (d_i * d_i))
-            blow[j] = np.where(real, den_r <= 0, (d_i <= 0) | (x >= np.pi))
+    with np.errstate(divide="ignore", invalid="ignore"):
         kk = np.sqrt(np.abs(k2))
-        root = np.where((k2 >= 0) & (kk - 0.5 * g0 > 0), v0 + q0 / (kk - 0.5 * g0), np.nan)
-    y = np.where(q0 == 0, 0.0, y)
-    rate = np.where(q0 == 0, 0.0, rate)
-    return v0 + y, rate, root, blow & (q0 != 0)
+        return np.where((k2 >= 0) & (kk - 0.5 * g0 > 0), v0 + q0 / (kk - 0.5 * g0), np.nan)
 
 
 _FACT = [float(math.factorial(n)) for n in range(20)]
 
 
 def _trajectory_distance(
-    v0: Array, v1: Array, q0: Array, q1: Array, root: Array, tau: Array, w: Array, a: Array, b: Array,
-    c: Array,
+    v0: Array, v1: Array, q0: Array, q1: Array, tau: Array, w: Array, a: Array, b: Array, c: Array,
 ) -> Array:
     """int (V - w) dt along a solution of dV/dt = q(V) = a + b V + c V^2 from v0 (rate q0) to v1 (q1).
 
@@ -585,18 +642,25 @@ def _trajectory_distance(
     singularity next to its end; there x = (r - w) tau + int (V - r)/(-q) dV, and (V - r)/q =
     1/(q'(r) + c (V - r)) integrates to a logarithm without singularity.
     """
-    sgn = np.where(q0 < 0, 1.0, -1.0)  # sgn q < 0 along the way
-    lo, hi = np.minimum(v0, v1), np.maximum(v0, v1)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        d, _, _ = _integrals(lo, hi, sgn * a, sgn * b, sgn * c, w)
-        settled = np.isfinite(root) & (np.abs(q1) <= 1e-3 * np.abs(q0))
-        g_r = b + 2.0 * c * root
-        den = g_r + c * (v1 - root)
-        z = c * (v0 - v1) / den
-        ratio = np.where(z != 0, np.log1p(z) / z, 1.0)
-        d_settled = (root - w) * tau - (v0 - v1) / den * ratio
-    d = np.where(settled, d_settled, d)
-    return np.where(q0 == 0, (v0 - w) * tau, d)
+        if np.all(q0 < 0):  # slowing down everywhere (the usual free roll): v1 <= v0
+            d, _, _ = _integrals(v1, v0, a, b, c, w)
+        else:
+            sgn = np.where(q0 < 0, 1.0, -1.0)  # sgn q < 0 along the way
+            d, _, _ = _integrals(np.minimum(v0, v1), np.maximum(v0, v1), sgn * a, sgn * b, sgn * c, w)
+        near = np.abs(q1) <= 1e-3 * np.abs(q0)
+        if near.any():
+            i = np.flatnonzero(near)
+            v0i, v1i, ai, bi, ci, wi = v0[i], v1[i], _at(a, i), _at(b, i), _at(c, i), _at(w, i)
+            root = _equilibrium(v0i, ai, bi, ci)
+            den = bi + 2.0 * ci * root + ci * (v1i - root)
+            z = ci * (v0i - v1i) / den
+            ratio = np.where(z != 0, np.log1p(z) / z, 1.0)
+            settled = (root - wi) * _at(tau, i) - (v0i - v1i) / den * ratio
+            d[i] = np.where(np.isfinite(root), settled, d[i])
+    if np.any(q0 == 0):
+        d = np.where(q0 == 0, (v0 - w) * tau, d)
+    return d
 
 
 def _free_roll(
@@ -613,14 +677,14 @@ def _free_roll(
     if method == "quadrature":
         return _free_roll_rk4(v0, tau, w, f, mu)
     a, b, c = _coefficients(v0, f, mu, f.idle)
-    v1, q1, root, blow = _riccati(v0, tau, a, b, c)
+    v1, q1, blow = _riccati(v0, tau, a, b, c)
     sign0 = v0 >= 0
     loaded0 = f.g_cos - f.lift * v0 * np.abs(v0) > 0
     with np.errstate(invalid="ignore"):
         same = ((v1 >= 0) == sign0) & ((f.g_cos - f.lift * v1 * np.abs(v1) > 0) == loaded0) & ~blow
     same &= np.isfinite(v1)
     q0 = a + v0 * (b + v0 * c)
-    x = _trajectory_distance(v0, v1, q0, q1, root, tau, w, a, b, c)
+    x = _trajectory_distance(v0, v1, q0, q1, tau, w, a, b, c)
     if not same.all():
         i = np.flatnonzero(~same)
         v1[i], x[i] = _free_roll_pieces(v0[i], tau[i], w[i], _take_forces(f, i), mu[i])
@@ -657,11 +721,11 @@ def _free_roll_pieces(v0: Array, tau: Array, w: Array, f: _Forces, mu: Array) ->
                 k = np.flatnonzero(end)
                 gi = dec[rows[k]]
                 top = p.hi[k]
-                vk, qk, rk, _ = _riccati(top, left[gi], p.a[k], p.b[k], p.c[k])
+                vk, qk, _ = _riccati(top, left[gi], p.a[k], p.b[k], p.c[k])
                 vk = np.clip(vk, p.lo[k], top)
                 q_top = p.a[k] + top * (p.b[k] + top * p.c[k])
-                x_out[gi] += _trajectory_distance(top, vk, q_top, qk, rk, left[gi], w[gi], p.a[k],
-                                                  p.b[k], p.c[k])
+                x_out[gi] += _trajectory_distance(top, vk, q_top, qk, left[gi], w[gi], p.a[k], p.b[k],
+                                                  p.c[k])
                 v_out[gi] = vk
                 open_[rows[k]] = False
         stopped = dec[open_]
@@ -686,9 +750,9 @@ def _free_roll_pieces(v0: Array, tau: Array, w: Array, f: _Forces, mu: Array) ->
             thrust_per_mass=fi.idle, drag_per_mass=fi.drag, lift_per_mass=fi.lift, mu=mui,
             g_cos=fi.g_cos, g_sin=fi.g_sin,
         )
-        v2, q2, r2, blow = _riccati(start, t_left, a2, b2, c2)
+        v2, q2, blow = _riccati(start, t_left, a2, b2, c2)
         q_s = a2 + start * (b2 + start * c2)
-        x2 = _trajectory_distance(start, v2, q_s, q2, r2, t_left, wi, a2, b2, c2)
+        x2 = _trajectory_distance(start, v2, q_s, q2, t_left, wi, a2, b2, c2)
         v_out[inc] = np.where(blow, np.inf, v2)
         x_out[inc] = np.where(blow, np.inf, x1 + x2)
     return v_out, x_out
