@@ -30,7 +30,7 @@ the normal force is held at zero until it returns (no friction meanwhile) and th
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, fields
+from dataclasses import dataclass
 from itertools import pairwise
 from typing import Any
 
@@ -143,23 +143,34 @@ def _forces(c: LandingCase, n: int) -> _Forces:
     g_cos = c.g * np.cos(c.slope_angle)
     idle = (c.idle_t0 / c.mass, c.idle_t1 / c.mass, c.idle_t2 / c.mass)
     rev = (c.reverse_t0 / c.mass, c.reverse_t1 / c.mass, c.reverse_t2 / c.mass)
-    use = c.use_reverse
+    use = np.asarray(c.use_reverse)
     with np.errstate(divide="ignore", over="ignore"):
-        lift_off = np.where(lift > 0, np.sqrt(g_cos / np.where(lift > 0, lift, 1.0)), np.inf)
-
-    def full(x: Any) -> Array:
-        return np.broadcast_to(x, (n,))
-
+        if np.all(lift > 0):
+            lift_off = np.sqrt(g_cos / lift)
+        else:
+            lift_off = np.where(lift > 0, np.sqrt(g_cos / np.where(lift > 0, lift, 1.0)), np.inf)
+    if use.all():
+        braking = rev
+    elif not use.any():
+        braking = idle
+    else:
+        braking = tuple(np.where(use, r, i) for r, i in zip(rev, idle, strict=True))
     return _Forces(
-        drag=full(q * cd),
-        lift=full(lift),
-        g_cos=full(g_cos),
-        g_sin=full(c.g * np.sin(c.slope_angle)),
-        idle=tuple(full(x) for x in idle),  # type: ignore[arg-type]
-        braking_thrust=tuple(full(np.where(use, r, i)) for r, i in zip(rev, idle, strict=True)),  # type: ignore[arg-type]
-        switch=full(np.where(use, c.reverse_cutoff_speed, -np.inf)),
-        lift_off_speed=full(lift_off),
+        drag=_full(q * cd, n),
+        lift=_full(lift, n),
+        g_cos=_full(g_cos, n),
+        g_sin=_full(c.g * np.sin(c.slope_angle), n),
+        idle=tuple(_full(x, n) for x in idle),  # type: ignore[arg-type]
+        braking_thrust=tuple(_full(x, n) for x in braking),  # type: ignore[arg-type]
+        switch=_full(np.where(use, c.reverse_cutoff_speed, -np.inf), n),
+        lift_off_speed=_full(lift_off, n),
     )
+
+
+def _full(x: Any, n: int) -> Array:
+    """x as an array of shape (n,): itself if it has that shape, else a read-only broadcast view."""
+    x = np.asarray(x)
+    return x if x.shape == (n,) else np.broadcast_to(x, (n,))
 
 
 def _accel(v: Array, f: _Forces, mu: Array, thrust: Thrust) -> Array:
@@ -193,39 +204,61 @@ def _pieces(
 ) -> list[_Piece]:
     """Split [v_lo, v_hi] where the force law is not smooth, lowest piece first.
 
-    ``thrust_hi`` acts above ``switch``, idle thrust below. Break points: zero airspeed, the switch speed
-    and the lift-off speed. Each piece holds only the landings for which it has length.
+    ``thrust_hi`` acts above ``switch`` (>= 0, or -inf for thrust_hi throughout), idle thrust below.
+    Break points: zero airspeed, the switch speed and the lift-off speed. Each piece holds only the
+    landings for which it has length.
     """
     # Break points in increasing order: zero airspeed <= the switch speed (>= 0; without a switch, zero
     # again) and the lift-off speed (> 0), which may fall either side of the switch; then clipped.
     switch_break = np.where(np.isfinite(switch), switch, 0.0)
-    edges = [
-        v_lo,
-        np.clip(0.0, v_lo, v_hi),
-        np.clip(np.minimum(switch_break, f.lift_off_speed), v_lo, v_hi),
-        np.clip(np.maximum(switch_break, f.lift_off_speed), v_lo, v_hi),
-        v_hi,
-    ]
+    first = switch_break <= f.lift_off_speed  # the switch comes before the lift-off speed
+
+    def clip(x: Array) -> Array:
+        return np.minimum(np.maximum(x, v_lo), v_hi)
+
+    edges = [v_lo, clip(np.zeros(())), clip(np.where(first, switch_break, f.lift_off_speed)),
+             clip(np.where(first, f.lift_off_speed, switch_break)), v_hi]
+    # The regime of each piece above zero airspeed follows from the order of the break points: from 0 to
+    # the first break wheels loaded and idle thrust; between the two breaks wheels loaded and thrust_hi
+    # if the switch comes first, else lift carries the weight and the thrust is idle; above both, no
+    # load on the wheels and thrust_hi. Below zero airspeed the regime is taken at the piece's middle.
     pieces = []
-    for lo, hi in pairwise(edges):
+    for index, (lo, hi) in enumerate(pairwise(edges)):
         used = hi > lo
         count = int(np.count_nonzero(used))
         if count == 0:
             continue
         rows: NDArray[np.intp] | slice = slice(None)
+        fr, mur, sw, th, first_r = f, mu, switch, thrust_hi, first
         if count < lo.size // 2:  # few landings: work on those only; otherwise on all, masked
             rows = np.flatnonzero(used)
             used = np.ones(count, dtype=bool)
             lo, hi = lo[rows], hi[rows]
-            fr, mur, sw = _take_forces(f, rows), mu[rows], switch[rows]
-            th = tuple(x[rows] for x in thrust_hi)
+            fr, mur, sw, first_r = _take_forces(f, rows), _at(mu, rows), switch[rows], first[rows]
+            th = tuple(_at(x, rows) for x in thrust_hi)  # type: ignore[assignment]
+        if index == 0:
+            mid = 0.5 * (hi + lo)
+            thrust = tuple(np.where(mid > sw, h, i) for h, i in zip(th, fr.idle, strict=True))
+            a, b, c = _coefficients(mid, fr, mur, thrust)  # type: ignore[arg-type]
+        elif index == 1:
+            a, b, c = _regime(fr, mur, fr.idle, True)
+        elif index == 2:
+            thrust = tuple(np.where(first_r, h, i) for h, i in zip(th, fr.idle, strict=True))
+            a, b, c = _regime(fr, mur, thrust, first_r)  # type: ignore[arg-type]
         else:
-            fr, mur, sw, th = f, mu, switch, thrust_hi
-        mid = 0.5 * (hi + lo)
-        thrust = tuple(np.where(mid > sw, h, i) for h, i in zip(th, fr.idle, strict=True))
-        a, b, c = _coefficients(mid, fr, mur, thrust)  # type: ignore[arg-type]
+            a, b, c = _regime(fr, mur, th, False)
         pieces.append(_Piece(rows, used, lo, hi, a, b, c))
     return pieces
+
+
+def _regime(
+    f: _Forces, mu: Array, thrust: Thrust, loaded: bool | NDArray[np.bool_]
+) -> tuple[Array, Array, Array]:
+    """(A, B, C) of the force law at positive airspeed, wheels loaded or not."""
+    return quadratic_acceleration_coefficients(
+        airflow_sign=1.0, wheels_loaded=loaded, thrust_per_mass=thrust, drag_per_mass=f.drag,
+        lift_per_mass=f.lift, mu=mu, g_cos=f.g_cos, g_sin=f.g_sin,
+    )
 
 
 def _coefficients(v: Array, f: _Forces, mu: Array, thrust: Thrust) -> tuple[Array, Array, Array]:
@@ -250,12 +283,14 @@ def _roll_integrals(
     time = np.zeros_like(v_lo)
     ok = np.ones(v_lo.shape, dtype=bool)
     for p in _pieces(v_lo, v_hi, f, mu, thrust_hi, switch):
+        # A piece without length (hi = lo) integrates to 0 and counts as a < 0 (see _piece_integrals).
         d, t, good = _piece_integrals(p, headwind[p.rows], method)
         ok[p.rows] &= good | ~p.used
-        dist[p.rows] += np.where(p.used, d, 0.0)
-        time[p.rows] += np.where(p.used, t, 0.0)
-    dist = np.where(ok, dist, np.inf)
-    time = np.where(ok, time, np.inf)
+        dist[p.rows] += d
+        time[p.rows] += t
+    if not ok.all():
+        dist = np.where(ok, dist, np.inf)
+        time = np.where(ok, time, np.inf)
     return dist, time, ok
 
 
@@ -266,7 +301,8 @@ def _piece_integrals(p: _Piece, w: Array, method: str) -> tuple[Array, Array, ND
         if method == "quadrature":
             _, _, a_min, a_max = _extremes(p.lo, p.hi, p.a, p.b, p.c)
             d, t = _quadrature(p.lo, p.hi, p.a, p.b, p.c, w, a_min, a_max, GAUSS_LEGENDRE_ORDER)
-            return d, t, a_max < 0
+            empty = p.hi == p.lo
+            return np.where(empty, 0.0, d), np.where(empty, 0.0, t), (a_max < 0) | empty
         return _integrals(p.lo, p.hi, p.a, p.b, p.c, w)
 
 
@@ -804,11 +840,10 @@ def _rk4(
 
 
 def _take_forces(f: _Forces, idx: NDArray[np.intp]) -> _Forces:
-    out: dict[str, Any] = {}
-    for fld in fields(f):
-        val = getattr(f, fld.name)
-        out[fld.name] = tuple(x[idx] for x in val) if isinstance(val, tuple) else val[idx]
-    return _Forces(**out)
+    return _Forces(
+        f.drag[idx], f.lift[idx], f.g_cos[idx], f.g_sin[idx], tuple(x[idx] for x in f.idle),  # type: ignore[arg-type]
+        tuple(x[idx] for x in f.braking_thrust), f.switch[idx], f.lift_off_speed[idx],  # type: ignore[arg-type]
+    )
 
 
 def _newton(
@@ -929,7 +964,7 @@ def _solve_chunk(c: LandingCase, method: str, n: int) -> dict[str, NDArray]:
     one value where it is the same for every landing (the caller broadcasts)."""
 
     def full(x: Any) -> Array:
-        return np.broadcast_to(x, (n,))
+        return _full(x, n)
 
     w = full(c.headwind)
     vs = stall_speed(c.mass, c.density, c.wing_area, c.cl_max, c.g)
@@ -968,8 +1003,9 @@ def _solve_chunk(c: LandingCase, method: str, n: int) -> dict[str, NDArray]:
     # Braking roll from the brake-application airspeed down to zero ground speed.
     brake, t_brake, ok = _roll_integrals(w, np.where(runaway, w, v_b), w, f, braking_mu,
                                          f.braking_thrust, f.switch, method)
-    brake = np.where(stopped, 0.0, np.where(runaway, np.inf, brake))
-    t_brake = np.where(stopped, 0.0, np.where(runaway, np.inf, t_brake))
+    if stopped.any() or runaway.any():
+        brake = np.where(stopped, 0.0, np.where(runaway, np.inf, brake))
+        t_brake = np.where(stopped, 0.0, np.where(runaway, np.inf, t_brake))
     cannot |= ~ok & ~stopped
 
     total = air + x_free + brake
@@ -977,8 +1013,8 @@ def _solve_chunk(c: LandingCase, method: str, n: int) -> dict[str, NDArray]:
     over = total > lda
     # Ground speed at the runway end: filled in afterwards for all overruns of the call together.
     # A landing that never stops passes the end at least at its brake-application ground speed.
-    end_speed = np.where(cannot, v_b - w, 0.0)
-    beyond = np.where(over, total - lda, 0.0)
+    end_speed = np.where(cannot, v_b - w, 0.0) if cannot.any() else np.zeros(())
+    beyond = np.maximum(total - lda, 0.0)
     return {
         "_free_roll_time": t_free,
         "approach_m": approach, "flare_m": flare, "air_distance_m": air, "free_roll_m": x_free,

@@ -106,12 +106,17 @@ def air_distance_flare(
     r = flare_radius(vf, load_factor, g)
     hf = flare_height(r, gam)
     high_flare = hf > h
+    tan_g, cos_g, sin_g = np.tan(gam), np.cos(gam), np.sin(gam)
+    if not np.any(high_flare):  # the usual case: the flare starts below the screen height
+        s_app_air = (h - hf) / tan_g
+        t_app = s_app_air / (cos_g * va)
+        return s_app_air - w * t_app, r * sin_g - w * (r * gam / vf)
     # Straight part: horizontal air distance and path length; flown at the approach speed.
-    s_app_air = np.where(high_flare, 0.0, (h - hf) / np.tan(gam))
-    t_app = s_app_air / (np.cos(gam) * va)
+    s_app_air = np.where(high_flare, 0.0, (h - hf) / tan_g)
+    t_app = s_app_air / (cos_g * va)
     # Arc: swept angle gamma, or less if the arc starts above the screen height.
     # R^2 - (R - h)^2 written as h (2 R - h): no cancellation when R is much larger than h (n -> 1).
-    s_arc_air = np.where(high_flare, np.sqrt(np.maximum(h * (2.0 * r - h), 0.0)), r * np.sin(gam))
+    s_arc_air = np.where(high_flare, np.sqrt(np.maximum(h * (2.0 * r - h), 0.0)), r * sin_g)
     swept = np.where(high_flare, np.arcsin(np.minimum(s_arc_air / r, 1.0)), gam)
     t_arc = r * swept / vf
     return s_app_air - w * t_app, s_arc_air - w * t_arc

@@ -102,10 +102,9 @@ def quadratic_acceleration_coefficients(
         As for :func:`acceleration`.
     """
     s = np.asarray(airflow_sign, dtype=float)
-    loaded = np.asarray(wheels_loaded, dtype=bool)
-    mu_eff = np.where(loaded, mu, 0.0)
+    mu_eff = np.asarray(mu, dtype=float) * np.asarray(wheels_loaded, dtype=bool)  # mu, or 0 if unloaded
     t0, t1, t2 = (np.asarray(x, dtype=float) for x in thrust_per_mass)
     a = t0 - mu_eff * np.asarray(g_cos) - np.asarray(g_sin)
-    b = t1 + np.zeros_like(a)
     c = t2 - s * (np.asarray(drag_per_mass) - mu_eff * np.asarray(lift_per_mass))
-    return np.broadcast_arrays(a, b, c)  # type: ignore[return-value]
+    shape = np.broadcast_shapes(a.shape, t1.shape, c.shape)
+    return tuple(x if x.shape == shape else np.broadcast_to(x, shape) for x in (a, t1, c))  # type: ignore[return-value]
