@@ -149,12 +149,8 @@ def _forces(c: LandingCase, n: int) -> _Forces:
             lift_off = np.sqrt(g_cos / lift)
         else:
             lift_off = np.where(lift > 0, np.sqrt(g_cos / np.where(lift > 0, lift, 1.0)), np.inf)
-    if use.all():
-        braking = rev
-    elif not use.any():
-        braking = idle
-    else:
-        braking = tuple(np.where(use, r, i) for r, i in zip(rev, idle, strict=True))
+    braking: Any = rev if use.all() else idle if not use.any() else tuple(
+        np.where(use, r, i) for r, i in zip(rev, idle, strict=True))
     return _Forces(
         drag=_full(q * cd, n),
         lift=_full(lift, n),
@@ -603,7 +599,9 @@ def _riccati(v0: Array, tau: Array, a: Array, b: Array, c: Array) -> tuple[Array
     return v, rate, blow
 
 
-def _riccati_series(v0: Array, tau: Array, q0: Array, g0: Array, z: Array) -> tuple[Array, Array, Array]:
+def _riccati_series(
+    v0: Array, tau: Array, q0: Array, g0: Array, z: Array
+) -> tuple[Array, Array, NDArray[np.bool_]]:
     """:func:`_riccati` for |z| = |k^2 t^2| <= 1/4: cosh(k t) = sum z^n/(2n)!, sinh(k t)/k =
     t sum z^n/(2n+1)! (cos and sin where z < 0); 8 terms leave less than 0.25^8/16! ~ 7e-19."""
     cc = np.full(z.shape, 1.0 / _FACT[14])
@@ -627,7 +625,7 @@ def _riccati_series(v0: Array, tau: Array, q0: Array, g0: Array, z: Array) -> tu
 
 def _riccati_large(
     v0: Array, tau: Array, q0: Array, g0: Array, k2: Array, c: Array
-) -> tuple[Array, Array, Array]:
+) -> tuple[Array, Array, NDArray[np.bool_]]:
     """:func:`_riccati` for |k t| > 1/2, with e^(-2 k t) for real k and cos, sin for imaginary k."""
     kk = np.sqrt(np.abs(k2))
     x = kk * tau
