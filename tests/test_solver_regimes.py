@@ -13,8 +13,8 @@ from scipy.integrate import quad
 
 from landrisk.errors import SolveError
 from landrisk.io import load_scenario
-from landrisk.model import solve_landings, solve_one
-from landrisk.model.solver import RUNAWAY_SPEED, _integrals, _riccati
+from landrisk.model import solve_landings, solve_one, solver
+from landrisk.model.solver import GL_ROOT_LIMIT, RUNAWAY_SPEED, _integrals, _riccati
 from landrisk.testing.reference import reference_braking_quad, reference_free_roll, reference_ground_roll
 
 
@@ -111,6 +111,92 @@ def test_closed_form_against_the_earlier_quadrature() -> None:
         assert new.total_m[0] == pytest.approx(old.total_m[0], rel=1e-6)
     with pytest.raises(ValueError, match="unknown method"):
         solve_landings(anderson_example_6_7(), method="euler")
+
+
+# --- the Gauss-Legendre path of the piece integrals, at the edge of where it is used ------------------
+def _piece_with_roots(u1: complex, u2: complex, m: float = 40.0, h: float = 30.0, qm: float = -3.0):
+    # q(V) = qm p(x), x = (V - m)/h, p(x) = (1 - u1 x)(1 - u2 x) = 1 + beta x + gamma x^2 (real for a
+    # real pair or a conjugate pair): the coefficients a, b, c of q in V, and the piece [m - h, m + h].
+    beta, gamma = -(u1 + u2).real, (u1 * u2).real
+    c = qm * gamma / h**2
+    b = qm * beta / h - 2.0 * c * m
+    a = qm - qm * beta * m / h + qm * gamma * m * m / h**2
+    return m - h, m + h, a, b, c
+
+
+_AT_LIMIT = GL_ROOT_LIMIT * (1.0 - 1e-6)
+_ROOTS = {
+    "double real root at the upper end": (_AT_LIMIT, _AT_LIMIT),
+    "double real root at the lower end": (-_AT_LIMIT, -_AT_LIMIT),
+    "two real roots": (_AT_LIMIT, -0.5 * _AT_LIMIT),
+    "complex pair": (_AT_LIMIT * np.exp(0.4j * np.pi), _AT_LIMIT * np.exp(-0.4j * np.pi)),
+    "complex pair near the axis": (_AT_LIMIT * np.exp(0.05j * np.pi), _AT_LIMIT * np.exp(-0.05j * np.pi)),
+}
+
+
+@pytest.mark.parametrize("roots", list(_ROOTS), ids=list(_ROOTS))
+def test_gauss_legendre_path_at_its_root_limit_against_quad(roots: str, monkeypatch) -> None:
+    # The largest reciprocal roots the quadrature path accepts: its error bound (Trefethen, Approximation
+    # Theory and Approximation Practice, SIAM 2013, Theorem 19.3) is below 1e-12 of the integrals here;
+    # scipy.integrate.quad (QUADPACK) is the reference. The closed form must not be called.
+    def no_closed_form(*args, **kwargs):
+        raise AssertionError("the closed form was used inside the Gauss-Legendre limit")
+
+    monkeypatch.setattr(solver, "_slow_integrals", no_closed_form)
+    lo, hi, a, b, c = _piece_with_roots(*_ROOTS[roots])
+    for w in (lo, lo - 7.0):
+        arr = [np.array([x], dtype=float) for x in (lo, hi, a, b, c, w)]
+        d, t, ok = _integrals(*arr)
+        assert ok[0]
+        assert (d[0], t[0]) == pytest.approx(_quad(lo, hi, a, b, c, w), rel=1e-12)
+
+
+@pytest.mark.parametrize("roots", list(_ROOTS), ids=list(_ROOTS))
+def test_just_beyond_the_root_limit_the_closed_form_takes_over(roots: str) -> None:
+    # 1 % past the limit: the closed form (Gradshteyn & Ryzhik 2.172, 2.175.1), against scipy quad.
+    u1, u2 = (complex(u) * 1.01 / (1.0 - 1e-6) for u in _ROOTS[roots])
+    lo, hi, a, b, c = _piece_with_roots(u1, u2)
+    calls = []
+    original = solver._slow_integrals
+
+    def spy(*args):
+        calls.append(1)
+        return original(*args)
+
+    solver._slow_integrals = spy
+    try:
+        d, t, ok = _integrals(*(np.array([x], dtype=float) for x in (lo, hi, a, b, c, lo - 3.0)))
+    finally:
+        solver._slow_integrals = original
+    assert calls and ok[0]
+    assert (d[0], t[0]) == pytest.approx(_quad(lo, hi, a, b, c, lo - 3.0), rel=1e-11)
+
+
+def test_gauss_legendre_error_over_the_accepted_roots_is_within_its_bound() -> None:
+    # 400 random root pairs with max |u| <= the limit, real or complex, on the normalised piece [-1, 1]:
+    # I0 = int dx/p and I1 = int x dx/p against scipy.integrate.quad (QUADPACK, epsrel 1e-13). The bound
+    # (Trefethen 2013, Theorem 19.3, with the ellipse of semi-major axis 3.5) is 2.5e-13 on I0 >= 1.28 and
+    # 8.8e-13 on I1; the tolerances add rounding.
+    rng = np.random.default_rng(11)
+    err0, err1 = [], []
+    for _ in range(400):
+        r = GL_ROOT_LIMIT * np.sqrt(rng.uniform(0.0, 1.0))
+        if rng.random() < 0.5:
+            u1, u2 = complex(r * rng.choice([-1.0, 1.0])), complex(r * rng.uniform(-1.0, 1.0))
+        else:
+            u1 = r * np.exp(1j * rng.uniform(0.0, np.pi))
+            u2 = np.conj(u1)
+        lo, hi, a, b, c = _piece_with_roots(u1, u2, m=0.0, h=1.0, qm=-1.0)
+        d, t, _ = _integrals(*(np.array([x], dtype=float) for x in (lo, hi, a, b, c, -1.0)))
+        beta, gamma = -(u1 + u2).real, (u1 * u2).real
+        i0 = quad(lambda x, p=(1, beta, gamma): 1 / (p[0] + p[1] * x + p[2] * x * x), -1, 1, epsabs=0,
+                  epsrel=1e-13)[0]
+        i1 = quad(lambda x, p=(1, beta, gamma): x / (p[0] + p[1] * x + p[2] * x * x), -1, 1, epsabs=0,
+                  epsrel=1e-13)[0]
+        err0.append(abs(t[0] - i0) / i0)  # T = I0 with h = -q(m) = 1
+        err1.append(abs((d[0] - t[0]) - i1))  # S = (m - w) I0 + h I1 = I0 + I1 with w = -1
+    assert max(err0) < 1e-12
+    assert max(err1) < 2e-12
 
 
 # --- regressions (issue 16), built through the scenario so that unit syntax does not matter ------------

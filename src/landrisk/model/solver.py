@@ -352,11 +352,11 @@ def _integrals(
         gam *= k  # c h^2 / q(m)
         bb = beta * beta
         tmp = gam * -4.0
-        tmp += bb
-        np.abs(tmp, out=tmp)
-        np.sqrt(tmp, out=tmp)
-        tmp += np.abs(beta)  # |beta| + sqrt|delta| = 2 max |u| for real roots, >= it for complex ones
-        fast = tmp <= 2.0 * GL_ROOT_LIMIT
+        tmp += bb  # the discriminant delta of p
+        # max |u| = sqrt(gamma) for complex roots (delta < 0), (|beta| + sqrt(delta))/2 for real ones.
+        real_roots = np.sqrt(np.abs(tmp))
+        real_roots += np.abs(beta)
+        fast = np.where(tmp < 0, gam <= GL_ROOT_LIMIT**2, real_roots <= 2.0 * GL_ROOT_LIMIT)
         fast &= qm < 0
         # Per pair, A^2 - B^2 = 1 + P x^2 + Q x^4 with P = 2 gamma - beta^2, Q = gamma^2; the sums
         # s_a = sum w/(A^2 - B^2) and s1 = sum w x^2/(A^2 - B^2) give s0 = sum w A/(A^2 - B^2) =
