@@ -710,10 +710,13 @@ def _free_roll(
     """
     if method == "quadrature":
         return _free_roll_rk4(v0, tau, w, f, mu)
-    a, b, c = _coefficients(v0, f, mu, f.idle)
-    v1, q1, blow = _riccati(v0, tau, a, b, c)
     sign0 = v0 >= 0
     loaded0 = f.g_cos - f.lift * v0 * np.abs(v0) > 0
+    if sign0.all():  # touchdown at a positive airspeed, as always from the touchdown speed
+        a, b, c = _regime(f, mu, f.idle, loaded0)
+    else:
+        a, b, c = _coefficients(v0, f, mu, f.idle)
+    v1, q1, blow = _riccati(v0, tau, a, b, c)
     with np.errstate(invalid="ignore"):
         same = ((v1 >= 0) == sign0) & ((f.g_cos - f.lift * v1 * np.abs(v1) > 0) == loaded0) & ~blow
     same &= np.isfinite(v1)
