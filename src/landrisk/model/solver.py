@@ -12,8 +12,9 @@ Phases (the physics modules give the published source of each relation):
    distance and time are integrals in airspeed, S = int (V - V_w) / (-a(V)) dV and t = int dV / (-a(V)),
    split where the force law stops being smooth: at the reverser cut-off, at zero airspeed (tailwind)
    and where lift takes the whole weight. On each piece a is a quadratic in V and the integrals are taken
-   in closed form or by their power series (:func:`_closed_form`), with high-order Gauss-Legendre
-   quadrature where the closed form would lose digits.
+   by Gauss-Legendre quadrature where a varies little across the piece (its error then provably below
+   1e-12, :func:`_integrals`), in closed form elsewhere (:func:`_closed_form`), and by high-order
+   Gauss-Legendre quadrature where the closed form would lose digits.
 
 ``method="quadrature"`` keeps the earlier solver (8-point Gauss-Legendre braking, fixed-step RK4 free
 roll) for comparison and benchmarking.
