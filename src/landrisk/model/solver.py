@@ -69,7 +69,7 @@ RK4_MAX_STEP = 1.5
 #: Step [s] for the rare free roll that crosses zero airspeed or the lift-off speed (a kink in the force).
 RK4_KINK_STEP = 0.002
 #: Landings evaluated together (keeps the temporaries in cache; results do not depend on it).
-CHUNK = 1 << 14
+CHUNK = 1 << 15
 #: Brake-application airspeed [m/s] above which the free roll counts as a runaway (``cannot_stop``):
 #: 10 km/s, about 30 times the speed of sound at sea level, is beyond any aircraft, and beyond it the
 #: force law is far outside its domain (and its squares near the floating-point range).
