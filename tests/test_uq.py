@@ -230,8 +230,12 @@ def test_running_p99_and_its_interval_are_numpy_and_scipy_quantile_test() -> Non
     x = np.random.default_rng(3).lognormal(size=20_000)
     c = convergence(x, x > 5.0, 0.99)
     supported = 0
+    # Given the sorted sample, the whole sample's order statistics are read from it: the same numbers.
+    given = convergence(x, x > 5.0, 0.99, sorted_x=np.sort(x))
+    assert all(np.array_equal(c[k], given[k], equal_nan=True) for k in c)
     for j, m in enumerate(c["n"].astype(int)):
         assert c["quantile"][j] == np.quantile(x[:m], 0.99)
+        assert c["p_event"][j] == np.mean(x[:m] > 5.0)  # the running share of events
         ci = stats.quantile_test(x[:m], p=0.99).confidence_interval(0.95)
         if np.isnan(ci.high):
             assert np.isnan(c["quantile_hi"][j])

@@ -252,7 +252,7 @@ def assess(
         nominal_total_m=nominal_total,
         flags={"lift_exceeds_weight": int(out["lift_exceeds_weight"].sum()),
                "cannot_stop": int(out["cannot_stop"].sum())},
-        convergence=convergence(out["total_m"], overrun, 0.99, conf=conf),
+        convergence=convergence(out["total_m"], overrun, 0.99, conf=conf, sorted_x=sorted_total),
         record=dict(record or {}),
         nominal_note=nominal_note,
         dry_basis_note=dry_note,
