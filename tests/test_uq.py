@@ -4,6 +4,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
+from landrisk.testing.plain import plain_transform
 from landrisk.testing.testmodels import StoppingDistance
 from landrisk.uq import (
     Problem,
@@ -99,58 +100,10 @@ def test_gaussian_copula_reaches_the_target_rank_correlation() -> None:
     np.testing.assert_allclose(rho, target, atol=0.01)
 
 
-def _plain_transform(problem: Problem, u: np.ndarray) -> np.ndarray:
-    """Problem.transform written as the plain column-by-column expressions: the Gaussian copula
-    u -> Phi(z L^T) with z = Phi^-1(u), each row sum added in the order j = 0..i, then each marginal's
-    inverse x = F^-1(u), truncated as F^-1(F(a) + u (F(b) - F(a)))."""
-    from scipy import special
-
-    from landrisk.uq import normal_correlation_from_spearman
-
-    u = u.copy()
-    if problem.spearman is not None:
-        c = problem.correlated
-        chol = np.linalg.cholesky(normal_correlation_from_spearman(problem.spearman))[np.ix_(c, c)]
-        z = special.ndtri(u[:, c])
-        mixed = []
-        for i in range(c.size):
-            acc = z[:, 0] * chol[i, 0]
-            for j in range(1, i + 1):
-                acc = acc + z[:, j] * chol[i, j]
-            mixed.append(acc)
-        u[:, c] = special.ndtr(np.column_stack(mixed))
-    cols = []
-    for j, m in enumerate(problem.marginals):
-        p, uj = m.params, u[:, j]
-        if m.family == "uniform":
-            cols.append(p["lower"] + uj * (p["upper"] - p["lower"]))
-        elif m.family == "triangular":
-            a, mode, b = p["lower"], p["mode"], p["upper"]
-            cols.append(np.where(uj < (mode - a) / (b - a), a + np.sqrt(uj * (b - a) * (mode - a)),
-                                 b - np.sqrt((1 - uj) * (b - a) * (b - mode))))
-        elif m.family == "discrete":  # the first value whose cumulative probability exceeds u
-            order = np.argsort(p["values"])
-            values, cum = np.asarray(p["values"])[order], np.cumsum(np.asarray(p["probabilities"])[order])
-            cum[-1] = 1.0
-            cols.append(values[np.minimum(np.searchsorted(cum, uj, side="right"), values.size - 1)])
-        else:  # normal, or lognormal as the exp of a normal; truncated where bounds are given
-            log = m.family == "lognormal"
-            mu, sd = (np.log(p["median"]), p["sigma_log"]) if log else (p["mean"], p["sd"])
-            with np.errstate(divide="ignore"):  # log 0 = -inf: an untruncated lognormal
-                lo, hi = (np.log(m.lower), np.log(m.upper)) if log else (m.lower, m.upper)
-            if np.isinf(lo) and np.isinf(hi):
-                y = mu + sd * special.ndtri(uj)
-            else:
-                pa, pb = special.ndtr((lo - mu) / sd), special.ndtr((hi - mu) / sd)
-                y = np.clip(mu + sd * special.ndtri(pa + uj * (pb - pa)), lo, hi)
-            cols.append(np.exp(y) if log else y)
-    return np.column_stack(cols)
-
-
 def test_transform_is_the_plain_expressions_to_the_last_bit() -> None:
-    # The in-place arithmetic of Problem.transform rounds exactly as the plain expressions, so that a seed
-    # gives the same samples to the last bit whatever the implementation; the expressions themselves are
-    # checked against scipy.stats above (test_marginal_quantiles_match_scipy and the truncated cases).
+    # The in-place arithmetic of Problem.transform rounds exactly as the plain expressions
+    # (landrisk.testing.plain), so that a seed gives the same samples to the last bit whatever the
+    # implementation; the marginals themselves are checked against scipy.stats above.
     marg = (make_marginal("normal", {"mean": 1.17, "sd": 0.03, "lower": 1.08, "upper": 1.32}),
             make_marginal("lognormal", {"median": 1.5, "sigma_log": 0.4, "lower": 0.3, "upper": 6.0}),
             make_marginal("normal", {"mean": 3.0, "sd": 2.0}),
@@ -166,7 +119,7 @@ def test_transform_is_the_plain_expressions_to_the_last_bit() -> None:
     for spearman in (None, r):
         problem = Problem(tuple("abcdefg"), marg, spearman)
         x = problem.transform(u)
-        assert x.flags.c_contiguous and np.array_equal(x, _plain_transform(problem, u))
+        assert x.flags.c_contiguous and np.array_equal(x, plain_transform(problem, u))
         assert np.array_equal(problem.transform(np.asfortranarray(u)), x)  # whatever u's layout
         assert np.array_equal(problem.transform(u[:1]), x[:1])  # whatever the number of rows
     with pytest.raises(ValueError, match="7 columns"):
