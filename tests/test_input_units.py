@@ -81,6 +81,25 @@ def test_the_unit_registry_is_created_once() -> None:
     assert _registry() is _registry()
 
 
+def test_pint_is_read_without_dask_and_dask_still_imports_after() -> None:
+    # units._pint hides dask from pint.compat while pint is imported (0.2 s saved); a fresh interpreter
+    # shows that reading quantities imports no dask and that dask, installed with landrisk, imports after.
+    import subprocess
+    import sys
+
+    code = ("import sys, importlib.util\n"
+            "from landrisk.units import convert, to_unit\n"
+            "x = to_unit('6 kt', 'm/s'), convert(1.0, 'ft', 'm')\n"
+            "print('dask' in sys.modules, importlib.util.find_spec('dask') is not None)\n"
+            "import dask.base\n"
+            "print(x[0], x[1])\n")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    lines = out.stdout.split("\n")
+    assert lines[0] == "False True"
+    # 1 kt = 1852/3600 m/s and 1 ft = 0.3048 m exactly (NIST SP 811, appendix B.8)
+    assert [float(v) for v in lines[1].split()] == pytest.approx([6 * 1852 / 3600, 0.3048], rel=1e-15)
+
+
 # The same invented scenario written in feet, knots, pounds and degF, and in SI with the exact factors.
 AVIATION = """
 [aircraft]

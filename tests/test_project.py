@@ -58,6 +58,15 @@ def test_commands_import_only_what_they_use(args) -> None:
         assert heavy not in modules, heavy
 
 
+def test_assess_imports_only_what_it_uses() -> None:
+    # The Monte Carlo assessment without --out draws no figure and writes no table; pint is read without
+    # dask (units._pint: dask is for study scale-out only).
+    modules = _imported_modules("assess", "--samples", "2000", "--quiet")
+    assert "pint" in modules
+    for heavy in ("chaospy", "matplotlib", "pandas", "scipy.stats", "dask"):
+        assert heavy not in modules, heavy
+
+
 def test_readme_links_to_files_that_exist() -> None:
     import re
 

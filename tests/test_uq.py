@@ -4,6 +4,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
+from landrisk.testing.plain import plain_transform
 from landrisk.testing.testmodels import StoppingDistance
 from landrisk.uq import (
     Problem,
@@ -99,6 +100,32 @@ def test_gaussian_copula_reaches_the_target_rank_correlation() -> None:
     np.testing.assert_allclose(rho, target, atol=0.01)
 
 
+def test_transform_is_the_plain_expressions_to_the_last_bit() -> None:
+    # The in-place arithmetic of Problem.transform rounds exactly as the plain expressions
+    # (landrisk.testing.plain), so that a seed gives the same samples to the last bit whatever the
+    # implementation; the marginals themselves are checked against scipy.stats above.
+    marg = (make_marginal("normal", {"mean": 1.17, "sd": 0.03, "lower": 1.08, "upper": 1.32}),
+            make_marginal("lognormal", {"median": 1.5, "sigma_log": 0.4, "lower": 0.3, "upper": 6.0}),
+            make_marginal("normal", {"mean": 3.0, "sd": 2.0}),
+            make_marginal("lognormal", {"median": 420.0, "sigma_log": 0.3}),
+            make_marginal("triangular", {"lower": 0.15, "mode": 0.32, "upper": 0.42}),
+            make_marginal("uniform", {"lower": 56e3, "upper": 66e3}),
+            make_marginal("discrete", {"values": [1.0, 0.0, 2.0], "probabilities": [0.6, 0.1, 0.3]}))
+    r = np.eye(7)
+    for i, j, rho in ((0, 3, 0.3), (0, 5, -0.2), (3, 5, 0.4)):
+        r[i, j] = r[j, i] = rho
+    edges = np.array([2.0**-53, 0.1, 0.3, 0.5, 0.7, 0.9, 1.0 - 2.0**-53])
+    u = np.vstack([np.random.default_rng(11).random((5000, 7)), np.tile(edges[:, None], (1, 7))])
+    for spearman in (None, r):
+        problem = Problem(tuple("abcdefg"), marg, spearman)
+        x = problem.transform(u)
+        assert x.flags.c_contiguous and np.array_equal(x, plain_transform(problem, u))
+        assert np.array_equal(problem.transform(np.asfortranarray(u)), x)  # whatever u's layout
+        assert np.array_equal(problem.transform(u[:1]), x[:1])  # whatever the number of rows
+    with pytest.raises(ValueError, match="7 columns"):
+        problem.transform(u[:, :6])
+
+
 def test_correlation_matrix_must_be_valid() -> None:
     m = make_marginal("uniform", {"lower": 0.0, "upper": 1.0})
     with pytest.raises(ValueError, match="positive definite"):
@@ -156,8 +183,12 @@ def test_running_p99_and_its_interval_are_numpy_and_scipy_quantile_test() -> Non
     x = np.random.default_rng(3).lognormal(size=20_000)
     c = convergence(x, x > 5.0, 0.99)
     supported = 0
+    # Given the sorted sample, the whole sample's order statistics are read from it: the same numbers.
+    given = convergence(x, x > 5.0, 0.99, sorted_x=np.sort(x))
+    assert all(np.array_equal(c[k], given[k], equal_nan=True) for k in c)
     for j, m in enumerate(c["n"].astype(int)):
         assert c["quantile"][j] == np.quantile(x[:m], 0.99)
+        assert c["p_event"][j] == np.mean(x[:m] > 5.0)  # the running share of events
         ci = stats.quantile_test(x[:m], p=0.99).confidence_interval(0.95)
         if np.isnan(ci.high):
             assert np.isnan(c["quantile_hi"][j])

@@ -12,13 +12,17 @@ by Python's ``float`` and only the unit expression is given to pint, so pint nev
 
 The registry is created once, on first use; pint's definition cache (in the user's cache folder) makes
 that about 0.05 s instead of 0.4 s. Where the cache cannot be used the registry is built without it.
+pint is imported without its dask support (see :func:`_pint`): quantities never leave this module as
+pint objects, only as floats and numpy arrays, so pint never meets a dask array.
 """
 
 from __future__ import annotations
 
 import math
 import re
+import sys
 from functools import lru_cache
+from types import ModuleType
 from typing import Any
 
 import numpy as np
@@ -70,9 +74,30 @@ class BareNumberError(UnitError):
     """A number without a unit where the key has a unit; the message gives an example to write."""
 
 
+def _pint() -> ModuleType:
+    """The pint package, imported without its dask support when dask is not loaded yet.
+
+    ``pint.compat`` imports ``dask.base`` whenever dask is installed (``importlib.util.find_spec``), which
+    costs about 0.2 s. While pint is imported, ``sys.modules["dask"]`` is None, for which ``find_spec``
+    answers "not installed"; the entry is removed right after, so ``landrisk study --dask`` imports dask
+    as usual. Where dask is loaded already (a dask worker), pint is imported as it is.
+    """
+    if "pint" in sys.modules or "dask" in sys.modules:
+        import pint
+
+        return pint
+    sys.modules["dask"] = None  # type: ignore[assignment]
+    try:
+        import pint
+    finally:
+        if "dask" in sys.modules and sys.modules["dask"] is None:
+            del sys.modules["dask"]
+    return pint
+
+
 @lru_cache(maxsize=1)
 def _registry() -> Any:
-    import pint
+    pint = _pint()
 
     # Offset units ("15 degC") parse to kelvin only with this option (pint documentation, "Temperature
     # conversion").
@@ -215,8 +240,7 @@ def to_unit(value: Any, unit: str, *, difference: bool = False, bare: bool | Non
 
 
 def _convert_written(x: float, written: str, unit: str, difference: bool, text: str) -> float:
-    import pint
-
+    pint = _pint()
     units = check_unit(written)
     if difference and str(units) in _OFFSET_UNITS:
         raise UnitError(
@@ -249,8 +273,7 @@ def convert_array(values: Any, from_unit: str, to: str, *, difference: bool = Fa
     ``from_unit`` is checked like a unit in a scenario (:func:`check_unit`); for a temperature difference
     an absolute temperature unit (``degC``) is refused.
     """
-    import pint
-
+    pint = _pint()
     units = check_unit(from_unit)
     if difference and str(units) in _OFFSET_UNITS:
         raise UnitError(f"{from_unit!r} is an absolute temperature; a difference is in K or delta_degC")

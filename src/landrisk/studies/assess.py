@@ -207,13 +207,6 @@ def assess(
                           progress=progress)
     out = run.outputs
     conf = s.confidence
-    pct = {}
-    moments = {}
-    sorted_total = np.sort(out["total_m"])
-    for name in PHASES:
-        xs = sorted_total if name == "total_m" else np.sort(out[name])
-        pct[name] = percentiles(xs, PERCENTILES, conf, presorted=True)
-        moments[name] = mean_interval(xs, conf)
     n = s.samples
     # A landing that cannot stop is an overrun whatever its (infinite) margin.
     overrun = (out["margin_m"] < 0) | out["cannot_stop"]
@@ -221,19 +214,20 @@ def assess(
     beyond = (out["margin_m"] < -resa) | out["cannot_stop"]
     speeds = np.sort(out["runway_end_ground_speed"][overrun & ~out["cannot_stop"]])
     lda = float(scenario.values["runway.lda"])
-    comparisons = []
-    if np.isfinite(nominal_total):
-        for name, factor, source in COMPARISON_FACTORS:
-            dry = name in _DRY_BASED
-            base = dry_total if dry else nominal_total
-            if not np.isfinite(base):
-                continue
-            line = base * factor
-            k = int(n - np.searchsorted(sorted_total, line, side="right"))
-            comparisons.append(ComparisonLine(
-                name, factor, source, line, event_probability(k, n, conf),
-                basis="the dry-runway distance" if dry and dry_note else "the deterministic distance",
-                lda_m=lda))
+    # One sorted copy of n distances at a time: the total's serves its percentiles, the comparison lines
+    # and the running P99, then each phase's in turn.
+    sorted_total = np.sort(out["total_m"])
+    pct = {"total_m": percentiles(sorted_total, PERCENTILES, conf, presorted=True)}
+    moments = {"total_m": mean_interval(sorted_total, conf)}
+    comparisons = _comparisons(sorted_total, conf, nominal_total, dry_total, dry_note, lda)
+    running = convergence(out["total_m"], overrun, 0.99, conf=conf, sorted_x=sorted_total)
+    del sorted_total
+    for name in PHASES:
+        if name != "total_m":
+            xs = np.sort(out[name])
+            pct[name] = percentiles(xs, PERCENTILES, conf, presorted=True)
+            moments[name] = mean_interval(xs, conf)
+            del xs
     return Assessment(
         scenario=scenario,
         problem=problem,
@@ -252,12 +246,32 @@ def assess(
         nominal_total_m=nominal_total,
         flags={"lift_exceeds_weight": int(out["lift_exceeds_weight"].sum()),
                "cannot_stop": int(out["cannot_stop"].sum())},
-        convergence=convergence(out["total_m"], overrun, 0.99, conf=conf),
+        convergence=running,
         record=dict(record or {}),
         nominal_note=nominal_note,
         dry_basis_note=dry_note,
         dry_total_m=dry_total,
     )
+
+
+def _comparisons(sorted_total: NDArray[np.float64], conf: float, nominal_total: float, dry_total: float,
+                 dry_note: str, lda: float) -> list[ComparisonLine]:
+    """The comparison lines and the probability that the Monte Carlo distance exceeds each."""
+    n = sorted_total.size
+    lines = []
+    if np.isfinite(nominal_total):
+        for name, factor, source in COMPARISON_FACTORS:
+            dry = name in _DRY_BASED
+            base = dry_total if dry else nominal_total
+            if not np.isfinite(base):
+                continue
+            line = base * factor
+            k = int(n - np.searchsorted(sorted_total, line, side="right"))
+            lines.append(ComparisonLine(
+                name, factor, source, line, event_probability(k, n, conf),
+                basis="the dry-runway distance" if dry and dry_note else "the deterministic distance",
+                lda_m=lda))
+    return lines
 
 
 def _nominal_values(scenario: Scenario, problem: Problem) -> tuple[dict[str, float], str]:

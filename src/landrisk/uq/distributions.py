@@ -136,11 +136,17 @@ class Marginal:
         return self.ppf(np.clip(special.ndtr(z), 2.0**-1074, 1.0 - 2.0**-53))
 
     def ppf(self, u: ArrayLike) -> Array:
-        """Inverse distribution function x = F^-1(u) for u in (0, 1)."""
+        """Inverse distribution function x = F^-1(u) for u in (0, 1).
+
+        The closed forms work in place on one new array (the arithmetic, and so every bit of the result,
+        is that of the plain expressions written beside them).
+        """
         u = np.asarray(u, dtype=float)
+        if u.ndim == 0:
+            return self.ppf(u.reshape(1))[0]
         if self.family == "discrete":
             idx = np.searchsorted(self._cum, u, side="right")
-            return self._values[np.minimum(idx, self._values.size - 1)]
+            return np.take(self._values, idx, mode="clip")  # an index past the last value: the last
         if self.family == "empirical":
             # Linear interpolation between order statistics (Hyndman & Fan 1996, definition 7); above
             # the threshold quantile q, if asked for, the fitted generalised Pareto tail (Coles 2001, ch. 4).
@@ -158,16 +164,27 @@ class Marginal:
         if self.family in ("normal", "truncnormal"):
             return self._normal_ppf(u)
         if self.family == "lognormal":  # exp of a (truncated) normal: the fast normal path
-            return np.exp(self._normal_ppf(u))
+            z = self._normal_ppf(u)
+            return np.exp(z, out=z)
         if self.family in ("uniform", "triangular"):  # closed forms, much cheaper than chaospy's inverse
             a, b = float(self.params["lower"]), float(self.params["upper"])
             if self.family == "uniform":
                 return a + u * (b - a)
             m = float(self.params["mode"])
             c = (m - a) / (b - a)
+            # where(u < c, a + sqrt(u (b - a) (m - a)), b - sqrt((1 - u) (b - a) (b - m)))
+            left = u * (b - a)
+            left *= m - a
+            right = 1 - u
+            right *= b - a
+            right *= b - m
             with np.errstate(invalid="ignore"):
-                return np.where(u < c, a + np.sqrt(u * (b - a) * (m - a)),
-                                b - np.sqrt((1 - u) * (b - a) * (b - m)))
+                np.sqrt(left, out=left)
+                np.sqrt(right, out=right)
+            left += a
+            np.subtract(b, right, out=right)
+            np.copyto(right, left, where=u < c)
+            return right
         if self.truncated:
             fa, fb = self._base_cdf(self.lower), self._base_cdf(self.upper)
             return np.clip(self.base.inv(fa + u * (fb - fa)), self.lower, self.upper)
@@ -190,7 +207,10 @@ class Marginal:
         a = (lower - mu) / sd
         b = (upper - mu) / sd
         if math.isinf(a) and math.isinf(b):
-            return mu + sd * special.ndtri(u)
+            z = special.ndtri(u)
+            z *= sd
+            z += mu  # mu + sd z
+            return z
         # An interval wholly in one tail is mirrored into the lower tail and inverted in log space,
         # x = Phi^-1(Phi(a) + u (Phi(b) - Phi(a))) with log Phi from log_ndtr and Phi^-1(exp(.)) from
         # ndtri_exp, so that it stays exact however far out the interval lies (Phi(-40) underflows).
@@ -205,8 +225,12 @@ class Marginal:
                 z = sign * np.clip(special.ndtri_exp(lb + share), lo_z, hi_z)
         else:  # the interval holds the mean: Phi keeps its precision on both sides
             pa, pb = special.ndtr(a), special.ndtr(b)
-            z = special.ndtri(pa + u * (pb - pa))
-        return np.clip(mu + sd * z, lower, upper)
+            z = u * (pb - pa)
+            z += pa
+            special.ndtri(z, out=z)  # ndtri(pa + u (pb - pa))
+        z *= sd
+        z += mu
+        return np.clip(z, lower, upper, out=z)  # clip(mu + sd z, ...)
 
     @property
     def _log_params(self) -> tuple[float, float]:
@@ -434,29 +458,48 @@ class Problem:
         if self._cholesky is None:
             return z
         c = self.correlated
-        chol = self._cholesky[np.ix_(c, c)]
         out = z.copy()
-        zc = z[:, c]
-        for i_local, i in enumerate(c):
-            acc = zc[:, 0] * chol[i_local, 0]
-            for j in range(1, i_local + 1):  # lower triangular
-                acc = acc + zc[:, j] * chol[i_local, j]
-            out[:, i] = acc
+        out[:, c] = self._mix(z[:, c].T).T
+        return out
+
+    def _mix(self, zc: Array) -> Array:
+        """z L^T for the correlated inputs, given and returned as rows zc[k, n] (k = len(correlated)):
+        row i is sum_j zc[j] L[i, j] for j = 0..i, added in that order."""
+        if self._cholesky is None:
+            return zc
+        c = self.correlated
+        chol = self._cholesky[np.ix_(c, c)]
+        out = np.empty_like(zc)
+        term = np.empty_like(zc[0])
+        for i in range(c.size):
+            acc = out[i]
+            np.multiply(zc[0], chol[i, 0], out=acc)
+            for j in range(1, i + 1):  # lower triangular
+                np.multiply(zc[j], chol[i, j], out=term)
+                acc += term
         return out
 
     def transform(self, u: ArrayLike) -> Array:
-        """Map uniform points u[n, d] in (0, 1)^d to input values x[n, d] (copula, then marginals)."""
+        """Map uniform points u[n, d] in (0, 1)^d to input values x[n, d] (copula, then marginals).
+
+        Works on the inputs one at a time, each a contiguous row of u's transpose: only the correlated
+        inputs go through the normal space, and each marginal's inverse writes its own row. x is
+        returned row-major whatever the layout of u, so that a model summing along a row of x always adds
+        in the same order.
+        """
         u = np.asarray(u, dtype=float)
         if u.size == 0:
             return np.empty((0, self.dimension))
+        if u.ndim != 2 or u.shape[1] != self.dimension:
+            raise ValueError(f"u must be a matrix of {self.dimension} columns, not of shape {u.shape}")
+        rows = np.array(u.T, order="C")
         if self._cholesky is not None:
-            # Only the inputs that take part in a correlation go through the normal space.
             c = self.correlated
-            u = u.copy()
-            z = np.zeros_like(u)
-            z[:, c] = special.ndtri(u[:, c])
-            u[:, c] = special.ndtr(self.correlate(z)[:, c])
-        return np.column_stack([m.ppf(u[:, j]) for j, m in enumerate(self.marginals)])
+            rows[c] = special.ndtr(self._mix(special.ndtri(rows[c])))
+        x = np.empty_like(rows)
+        for j, m in enumerate(self.marginals):
+            x[j] = m.ppf(rows[j])
+        return np.ascontiguousarray(x.T)
 
     def from_standard_normal(self, z: ArrayLike) -> Array:
         """Map independent standard normals z[n, d] to input values x[n, d]: the copula in normal space,

@@ -62,4 +62,4 @@ def uniform_chunks(
                 warnings.simplefilter("ignore", UserWarning)
                 u = engine.random(m)
         done += m
-        yield np.clip(u, _EPS, 1.0 - _EPS)
+        yield np.clip(u, _EPS, 1.0 - _EPS, out=u)  # u is a new array of this chunk's own

@@ -212,7 +212,8 @@ def mean_interval(x: ArrayLike, conf: float = 0.95) -> Moments:
     finite = np.isfinite(xs)
     if np.any(np.isnan(xs)):
         raise ValueError("mean_interval: the sample holds NaN")
-    used = xs[finite]
+    # No copy of a contiguous sample that is finite throughout (the sums then run over the same array).
+    used = xs if xs.ndim == 1 and xs.flags.c_contiguous and finite.all() else xs[finite]
     n = int(used.size)
     excluded = int(xs.size - n)
     if n == 0:
@@ -263,17 +264,21 @@ def zero_event_bound(n: int, conf: float = 0.95) -> float:
 
 
 def convergence(
-    x: NDArray[np.float64], event: NDArray[np.bool_], q: float, points: int = 20, conf: float = 0.95
+    x: NDArray[np.float64], event: NDArray[np.bool_], q: float, points: int = 20, conf: float = 0.95,
+    *, sorted_x: NDArray[np.float64] | None = None,
 ) -> dict[str, NDArray[np.float64]]:
     """Running estimates over growing prefixes of the sample: P(event) and the q-quantile (q in (0, 1)).
 
     Returns arrays ``n``, ``p_event``, ``quantile`` and the quantile's distribution-free ``conf`` interval
     ``quantile_lo``, ``quantile_hi`` (order statistics, as :func:`percentiles`; NaN where the prefix is
-    too short to bound it) at about ``points`` log-spaced prefix sizes.
+    too short to bound it) at about ``points`` log-spaced prefix sizes. ``sorted_x``, if given, is x in
+    ascending order: the whole sample's order statistics are read from it instead of selected again.
     """
     total = x.size
     sizes = np.unique(np.geomspace(min(100, total), total, points).astype(int))
-    cum_events = np.cumsum(event)
+    # Events counted prefix by prefix (the running count at each size, without a cumulative array of n).
+    starts = np.concatenate([[0], sizes[:-1]])
+    cum_events = np.cumsum([np.count_nonzero(event[a:b]) for a, b in zip(starts, sizes, strict=True)])
     quant = np.empty(sizes.size)
     q_lo = np.full(sizes.size, np.nan)
     q_hi = np.full(sizes.size, np.nan)
@@ -282,10 +287,13 @@ def convergence(
         k = int(np.floor(h))
         lo_i, hi_i = _order_statistic_indices(int(m), q, conf)
         wanted = sorted({k, min(k + 1, m - 1)} | {i for i in (lo_i, hi_i) if 0 <= i < m})
-        part = np.partition(x[:m], wanted)  # the order statistics needed, without a full sort
+        if m == total and sorted_x is not None:
+            part = sorted_x
+        else:
+            part = np.partition(x[:m], wanted)  # the order statistics needed, without a full sort
         quant[j] = _linear_quantile(part[[k, min(k + 1, m - 1)]] if k + 1 < m else part[[k]], (h - k)
                                     if k + 1 < m else 0.0)
         if 0 <= lo_i and hi_i < m:
             q_lo[j], q_hi[j] = part[lo_i], part[hi_i]
-    return {"n": sizes.astype(float), "p_event": cum_events[sizes - 1] / sizes, "quantile": quant,
+    return {"n": sizes.astype(float), "p_event": cum_events / sizes, "quantile": quant,
             "quantile_lo": q_lo, "quantile_hi": q_hi}
