@@ -166,6 +166,9 @@ class _ProgressBar:
               help="Seed of the sampler; the same seed gives the same results.")
 @click.option("--sampler", type=click.Choice(["random", "sobol", "halton", "lhs"]), default="random",
               show_default=True, help="Pseudo-random, scrambled Sobol or Halton points, or Latin hypercube.")
+@click.option("--stream-above", type=click.IntRange(min=1), default=1 << 22, show_default=True,
+              help="With more samples than this, the distances are counted in 1 m bins as they are made "
+              "instead of kept: memory stays bounded, percentiles are within 1 m (the output says so).")
 @click.option("--method", type=click.Choice(["mc", "auto", "subset", "importance", "form", "sorm"]),
               default="mc", show_default=True, help="Monte Carlo, or for rare overruns: auto (subset "
               "simulation with FORM's design point and importance sampling beside it; the one to use), "
@@ -196,7 +199,8 @@ class _ProgressBar:
 @_units_option
 @_report_option
 @_reported
-def assess(config: str | None, samples: int, seed: int, sampler: str, method: str, target_cov: float,
+def assess(config: str | None, samples: int, seed: int, sampler: str, stream_above: int, method: str,
+           target_cov: float,
            max_calls: int, subset_samples: int, overrides: tuple[str, ...], out_dir: str | None,
            save_samples: bool, force: bool, as_json: bool, quiet: bool, epistemic: bool, outer: int,
            epistemic_method: str, samples_format: str, units: str | None, with_report: bool) -> None:
@@ -216,10 +220,10 @@ def assess(config: str | None, samples: int, seed: int, sampler: str, method: st
     if save_samples and not out_dir:
         raise click.UsageError("--save-samples needs --out DIR")
     ctx = click.get_current_context()
-    given = [f"--{n.replace('_', '-')}" for n in ("samples", "sampler", "save_samples", "target_cov",
-                                                   "max_calls", "subset_samples")
+    given = [f"--{n.replace('_', '-')}" for n in ("samples", "sampler", "save_samples", "stream_above",
+                                                   "target_cov", "max_calls", "subset_samples")
              if ctx.get_parameter_source(n) is not click.core.ParameterSource.DEFAULT]
-    mc_only = [g for g in given if g in ("--samples", "--sampler", "--save-samples")]
+    mc_only = [g for g in given if g in ("--samples", "--sampler", "--save-samples", "--stream-above")]
     rare_only = [g for g in given if g in ("--target-cov", "--max-calls", "--subset-samples")]
     if method != "mc" and mc_only:
         raise click.UsageError(f"{', '.join(mc_only)}: for Monte Carlo only, not --method {method}; "
@@ -246,7 +250,8 @@ def assess(config: str | None, samples: int, seed: int, sampler: str, method: st
             _echo(report.render_rare(rare, rare_written, shown))
         return
     bar = _ProgressBar(not quiet)
-    options: dict[str, Any] = {"samples": samples, "seed": seed, "sampler": sampler, "progress": bar}
+    options: dict[str, Any] = {"samples": samples, "seed": seed, "sampler": sampler, "progress": bar,
+                               "stream_above": stream_above}
     written: list[str] | None = None
     try:
         if out_dir:

@@ -277,18 +277,17 @@ def exceedance_figure(a: Assessment, units: str | None = None) -> Figure:
     plt = _pyplot()
     du = DisplayUnits(units or "si")
     lu = du.unit("length")
-    xs = a.sorted_total()
-    finite = xs[np.isfinite(xs)]
+    span = a.finite_total_range()
     fig, ax = plt.subplots(figsize=(8, 5.2))
-    floor = 0.5 / xs.size
-    if finite.size:
-        grid = np.linspace(finite[0], finite[-1], 600)
-        p, lo, hi = exceedance_curve(xs, grid, a.settings.confidence)
+    floor = 0.5 / a.n
+    if span is not None:
+        grid, p, lo, hi = a.exceedance(np.linspace(span[0], span[1], 600))
+        binned = f", counted in {a.percentile_error_m:g} m bins" if a.streamed else ""
         ax.fill_between(du.length(grid), np.maximum(lo, floor), np.maximum(hi, floor), alpha=0.3,
                         label=f"{100 * a.settings.confidence:g} % interval (Wilson; no exceedance: "
-                              f"Clopper-Pearson {zero_event_bound(xs.size, a.settings.confidence):.1e})")
+                              f"Clopper-Pearson {zero_event_bound(a.n, a.settings.confidence):.1e})")
         keep = p > 0
-        ax.step(du.length(grid[keep]), p[keep], where="post", lw=1.6, label="Monte Carlo estimate")
+        ax.step(du.length(grid[keep]), p[keep], where="post", lw=1.6, label=f"Monte Carlo estimate{binned}")
     ax.set_yscale("log")
     ax.set_ylim(floor, 1.0)
     runway_marks(ax, du.length(a.lda_m), du.length(a.resa_length_m), lu)
@@ -313,12 +312,12 @@ def histogram_figure(a: Assessment, units: str | None = None) -> Figure:
     plt = _pyplot()
     du = DisplayUnits(units or "si")
     lu = du.unit("length")
-    total = a.outputs["total_m"]
+    edges, density, stops = a.total_density(120)
     fig, ax = plt.subplots(figsize=(8, 4.8))
-    stops = total[np.isfinite(total)]
-    if stops.size:
-        ax.hist(du.length(stops), bins=120, density=True, color=OKABE_ITO[0], alpha=0.85,
-                label=f"Monte Carlo, {stops.size:,} landings that stop")
+    if stops:
+        shown = du.length(edges)
+        ax.hist(shown[:-1], bins=shown, weights=density / du.length(1.0), color=OKABE_ITO[0], alpha=0.85,
+                label=f"Monte Carlo, {stops:,} landings that stop")
         ax.set_yscale("log")
     else:
         ax.text(0.5, 0.5, "no landing stops", transform=ax.transAxes, ha="center")

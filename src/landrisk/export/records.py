@@ -148,7 +148,9 @@ def summary_record(a: Assessment) -> dict[str, Any]:
     Means and standard deviations are of the landings that stop (``moments_samples`` of them); the
     ``landings_cannot_stop`` are overruns with an infinite distance, and a percentile above their share
     is listed in ``percentiles_beyond_any_runway`` instead of given a number. With fewer than two
-    landings that stop the standard deviation cannot be estimated: ``sd_m`` is null.
+    landings that stop the standard deviation cannot be estimated: ``sd_m`` is null. A ``streamed``
+    assessment (more samples than its settings keep) reads its percentiles from counts in bins:
+    within ``percentile_error_m`` of the sample's (0 for exact order statistics).
     """
     from landrisk.studies.assess import PHASES
 
@@ -170,6 +172,8 @@ def summary_record(a: Assessment) -> dict[str, Any]:
         "percentiles_ci95_m": {f"{p.p:g}": [p.lo, p.hi] for p in tot if p.supported},
         "percentiles_beyond_any_runway": [f"{p.p:g}" for p in tot if p.infinite],
         "unsupported_percentiles": [f"{p.p:g}" for p in tot if not p.supported],
+        "streamed": a.streamed,
+        "percentile_error_m": a.percentile_error_m,
         "p_overrun": None if a.p_overrun.upper_bound_only else a.p_overrun.estimate,
         "p_overrun_ci95": [a.p_overrun.lo, a.p_overrun.hi],
         "p_overrun_upper_bound_only": a.p_overrun.upper_bound_only,

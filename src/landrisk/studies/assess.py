@@ -38,11 +38,15 @@ from landrisk.uq import (
     Moments,
     Percentile,
     Problem,
+    RunningMoments,
     convergence,
     event_probability,
+    exceedance_curve,
     mean_interval,
     percentiles,
     run_monte_carlo,
+    wilson_interval,
+    zero_event_bound,
 )
 
 __all__ = [
@@ -78,10 +82,22 @@ _DRY_BASED = ("dry-runway factor 1/0.6", "wet-runway factor 1.15/0.6")
 #: A braking coefficient below this is not a dry runway's: Raymer 2018, Table 17.1 gives brakes-on
 #: 0.3-0.5 dry and 0.15-0.3 wet.
 DRY_BRAKING_MU = 0.3
+#: A streamed assessment (see :class:`AssessSettings`) counts the distances in bins of this width [m]
+#: from 0 to STREAM_RANGE_M: its percentiles are within one bin of the sample's.
+STREAM_BIN_M = 1.0
+STREAM_RANGE_M = 100_000.0
+
 
 @dataclass(frozen=True)
 class AssessSettings:
-    """How the Monte Carlo assessment is run."""
+    """How the Monte Carlo assessment is run.
+
+    Up to ``stream_above`` samples (or with ``keep_samples``) every output is kept, and percentiles are
+    exact order statistics. Beyond it the assessment is *streamed*: each chunk's outputs are counted and
+    dropped, so that memory does not grow with the sample count; probabilities, counts, means and
+    standard deviations are the same numbers (to rounding), percentiles come from the counts in bins of
+    STREAM_BIN_M (within one bin of the sample's, which the results say).
+    """
 
     samples: int = 100_000
     seed: int = 1
@@ -89,6 +105,12 @@ class AssessSettings:
     chunk: int = 1 << 16
     confidence: float = 0.95
     keep_samples: bool = False
+    stream_above: int = 1 << 22
+
+    @property
+    def streamed(self) -> bool:
+        """Whether the outputs are counted chunk by chunk instead of kept."""
+        return self.samples > self.stream_above and not self.keep_samples
 
 
 @dataclass(frozen=True)
@@ -134,6 +156,15 @@ class Assessment:
     nominal_note: str = ""  # how the deterministic line's inputs differ from the scenario's nominal ones
     dry_basis_note: str = ""  # how the dry-runway distance of the factored lines was obtained
     dry_total_m: float = float("nan")  # the dry-runway distance the regulatory factors multiply
+    #: A streamed assessment's counts of each phase's distance (uq.chunked.Histogram; empty if not
+    #: streamed), and the bound on its percentiles' error [m] (0: exact order statistics).
+    histograms: dict[str, Any] = field(default_factory=dict, repr=False)
+    percentile_error_m: float = 0.0
+
+    @property
+    def streamed(self) -> bool:
+        """Whether the outputs were counted in bins instead of kept (see :class:`AssessSettings`)."""
+        return bool(self.histograms)
 
     @property
     def cannot_stop(self) -> int:
@@ -151,8 +182,54 @@ class Assessment:
         return float(self.scenario.values["runway.lda"])
 
     def sorted_total(self) -> NDArray[np.float64]:
-        """The total distances in ascending order."""
+        """The total distances in ascending order (not kept by a streamed assessment)."""
+        if self.streamed:
+            raise LandriskError(f"the assessment of {self.n:,} samples was streamed and kept no sample; "
+                                "read its histograms, or raise AssessSettings.stream_above")
         return np.sort(self.outputs["total_m"])
+
+    def exceedance(self, grid: NDArray[np.float64]) -> tuple[NDArray[np.float64], NDArray[np.float64],
+                                                              NDArray[np.float64], NDArray[np.float64]]:
+        """P(total distance > x) with its interval (Wilson; Clopper-Pearson with no exceedance) at the
+        distances x of ``grid`` [m]: (x, p, lo, hi). A streamed assessment gives them at the bin edges
+        nearest above the grid's distances (x then holds those)."""
+        conf = self.settings.confidence
+        if not self.streamed:
+            p, lo, hi = exceedance_curve(self.sorted_total(), grid, conf)
+            return np.asarray(grid, dtype=float), p, lo, hi
+        x, k = self.histograms["total_m"].exceedance(grid)
+        lo, hi = wilson_interval(k, self.n, conf)
+        return x, k / self.n, lo, np.where(k == 0, zero_event_bound(self.n, conf), hi)
+
+    def finite_total_range(self) -> tuple[float, float] | None:
+        """The least and largest finite total distance [m] (bin edges if streamed); None if none stops."""
+        if not self.streamed:
+            xs = self.outputs["total_m"]
+            finite = xs[np.isfinite(xs)]
+            return (float(finite.min()), float(finite.max())) if finite.size else None
+        h = self.histograms["total_m"]
+        full = np.flatnonzero(h.counts)
+        return (float(full[0] * h.width), float((full[-1] + 1) * h.width)) if full.size else None
+
+    def total_density(self, bins: int = 120) -> tuple[NDArray[np.float64], NDArray[np.float64], int]:
+        """A histogram of the finite total distances: bin edges [m], density [1/m] and the count."""
+        if not self.streamed:
+            xs = self.outputs["total_m"]
+            stops = xs[np.isfinite(xs)]
+            if not stops.size:
+                return np.zeros(0), np.zeros(0), 0
+            dens, edges = np.histogram(stops, bins=bins, density=True)
+            return edges, dens, int(stops.size)
+        h = self.histograms["total_m"]
+        full = np.flatnonzero(h.counts)
+        if not full.size:
+            return np.zeros(0), np.zeros(0), 0
+        per = max(1, int(np.ceil((full[-1] + 1 - full[0]) / bins)))  # whole bins of the counts per bar
+        counts = h.counts[full[0]:full[-1] + 1]
+        counts = np.pad(counts, (0, -counts.size % per)).reshape(-1, per).sum(axis=1)
+        edges = (full[0] + per * np.arange(counts.size + 1)) * h.width
+        used = int(counts.sum())
+        return edges, counts / (used * per * h.width), used
 
     def __repr__(self) -> str:
         return shown.repr_of("Assessment", shown.assessment_lines(self))
@@ -197,6 +274,9 @@ def assess(
     nominal_total = _deterministic(scenario, nominal)
     dry_total, dry_note = _dry_distance(scenario, nominal, nominal_total)
     model = landing_model(scenario, problem.names)
+    if s.streamed:
+        return _assess_streamed(scenario, problem, s, model, progress, record, sink,
+                                (nominal, nominal_note, nominal_total, dry_total, dry_note))
     if sink is not None:
         def model_and_sink(x: NDArray[np.float64]) -> Mapping[str, NDArray]:
             y = model(x)
@@ -254,24 +334,131 @@ def assess(
     )
 
 
-def _comparisons(sorted_total: NDArray[np.float64], conf: float, nominal_total: float, dry_total: float,
-                 dry_note: str, lda: float) -> list[ComparisonLine]:
-    """The comparison lines and the probability that the Monte Carlo distance exceeds each."""
-    n = sorted_total.size
+def _comparison_lines(nominal_total: float, dry_total: float,
+                      dry_note: str) -> list[tuple[str, float, str, float, str]]:
+    """(name, factor, source, distance [m], basis) of each comparison line that has a finite distance."""
     lines = []
     if np.isfinite(nominal_total):
         for name, factor, source in COMPARISON_FACTORS:
             dry = name in _DRY_BASED
             base = dry_total if dry else nominal_total
-            if not np.isfinite(base):
-                continue
-            line = base * factor
-            k = int(n - np.searchsorted(sorted_total, line, side="right"))
-            lines.append(ComparisonLine(
-                name, factor, source, line, event_probability(k, n, conf),
-                basis="the dry-runway distance" if dry and dry_note else "the deterministic distance",
-                lda_m=lda))
+            if np.isfinite(base):
+                basis = "the dry-runway distance" if dry and dry_note else "the deterministic distance"
+                lines.append((name, factor, source, base * factor, basis))
     return lines
+
+
+def _comparisons(sorted_total: NDArray[np.float64], conf: float, nominal_total: float, dry_total: float,
+                 dry_note: str, lda: float) -> list[ComparisonLine]:
+    """The comparison lines and the probability that the Monte Carlo distance exceeds each."""
+    n = sorted_total.size
+    return [ComparisonLine(name, factor, source, line,
+                           event_probability(int(n - np.searchsorted(sorted_total, line, side="right")), n,
+                                             conf), basis=basis, lda_m=lda)
+            for name, factor, source, line, basis in _comparison_lines(nominal_total, dry_total, dry_note)]
+
+
+class _Counts:
+    """What a streamed assessment keeps of each chunk: counts, histograms, sums and the overruns' speeds."""
+
+    def __init__(self, resa: float, lines: list[float], n: int, chunk: int, conf: float) -> None:
+        from landrisk.uq.chunked import Histogram  # only a streamed run needs it
+
+        bins = round(STREAM_RANGE_M / STREAM_BIN_M)
+        self.empty = Histogram(STREAM_BIN_M, np.zeros(bins, dtype=np.int64))
+        self.of = lambda x: Histogram.of(x, STREAM_BIN_M, bins)
+        self.hist = {name: self.empty for name in PHASES}
+        self.moments = {name: RunningMoments() for name in PHASES}
+        self.resa, self.lines, self.conf = resa, lines, conf
+        self.done = self.overruns = self.beyond = self.lifted = self.cannot = 0
+        self.exceed = [0] * len(lines)
+        self.speeds: list[NDArray[np.float64]] = []
+        # Running P(overrun) and P99: the first chunk's prefixes exactly, then at log-spaced chunk ends.
+        self.targets = list(np.geomspace(chunk, n, 20)[1:]) if n > chunk else []
+        self.running: dict[str, list[float]] = {k: [] for k in ("n", "p_event", "quantile", "quantile_lo",
+                                                                 "quantile_hi")}
+
+    def add(self, y: Mapping[str, NDArray]) -> None:
+        total, margin, cannot = y["total_m"], y["margin_m"], y["cannot_stop"]
+        overrun = (margin < 0) | cannot
+        first = self.done == 0
+        self.done += int(total.size)
+        self.overruns += int(np.count_nonzero(overrun))
+        self.beyond += int(np.count_nonzero((margin < -self.resa) | cannot))
+        self.lifted += int(np.count_nonzero(y["lift_exceeds_weight"]))
+        self.cannot += int(np.count_nonzero(cannot))
+        for j, line in enumerate(self.lines):
+            self.exceed[j] += int(np.count_nonzero(total > line))
+        for name in PHASES:
+            self.hist[name] = self.hist[name].merge(self.of(y[name]))
+            self.moments[name].add(y[name])
+        self.speeds.append(np.asarray(y["runway_end_ground_speed"][overrun & ~cannot], dtype=float))
+        if first:
+            for k, v in convergence(np.asarray(total, dtype=float), overrun, 0.99, conf=self.conf).items():
+                self.running[k].extend(float(x) for x in v)
+        elif self.targets and self.done >= self.targets[0]:
+            while self.targets and self.done >= self.targets[0]:
+                self.targets.pop(0)
+            p99 = self.hist["total_m"].percentiles([99.0], self.conf)[0]
+            point: dict[str, float | None] = {
+                "n": self.done, "p_event": self.overruns / self.done,
+                "quantile": np.inf if p99.infinite else p99.value, "quantile_lo": p99.lo,
+                "quantile_hi": np.inf if p99.hi_infinite else p99.hi}
+            for key, value in point.items():
+                self.running[key].append(np.nan if value is None else float(value))
+
+
+def _assess_streamed(
+    scenario: Scenario, problem: Problem, s: AssessSettings, model: Callable[[NDArray[np.float64]], Any],
+    progress: Callable[[int, int], None] | None, record: Mapping[str, Any] | None,
+    sink: Callable[[NDArray[np.float64], Mapping[str, NDArray]], None] | None,
+    nominal: tuple[dict[str, float], str, float, float, str],
+) -> Assessment:
+    """:func:`assess` with every chunk's outputs counted and dropped (:class:`AssessSettings`)."""
+    _, nominal_note, nominal_total, dry_total, dry_note = nominal
+    conf, n = s.confidence, s.samples
+    resa = float(scenario.values["runway.resa_length"])
+    lda = float(scenario.values["runway.lda"])
+    lines = _comparison_lines(nominal_total, dry_total, dry_note)
+    counts = _Counts(resa, [line[3] for line in lines], n, s.chunk, conf)
+
+    def model_and_count(x: NDArray[np.float64]) -> Mapping[str, NDArray]:
+        y = model(x)
+        if sink is not None:
+            sink(x, y)
+        counts.add(y)
+        return y
+
+    run_monte_carlo(problem, model_and_count, n, sampler=s.sampler, seed=s.seed, chunk=s.chunk, keep=(),
+                    progress=progress)
+    speeds = np.sort(np.concatenate(counts.speeds)) if counts.speeds else np.zeros(0)
+    return Assessment(
+        scenario=scenario,
+        problem=problem,
+        settings=s,
+        outputs={},
+        inputs=None,
+        percentiles={name: counts.hist[name].percentiles(PERCENTILES, conf) for name in PHASES},
+        moments={name: counts.moments[name].moments(conf) for name in PHASES},
+        p_overrun=event_probability(counts.overruns, n, conf),
+        p_beyond_resa=event_probability(counts.beyond, n, conf),
+        resa_length_m=resa,
+        overrun_speed=percentiles(speeds, (50.0, 90.0, 99.0), conf, presorted=True) if speeds.size else [],
+        overrun_speed_min=float(speeds[0]) if speeds.size else None,
+        overrun_speed_max=float(speeds[-1]) if speeds.size else None,
+        comparisons=[ComparisonLine(name, factor, source, line, event_probability(k, n, conf), basis=basis,
+                                    lda_m=lda)
+                     for (name, factor, source, line, basis), k in zip(lines, counts.exceed, strict=True)],
+        nominal_total_m=nominal_total,
+        flags={"lift_exceeds_weight": counts.lifted, "cannot_stop": counts.cannot},
+        convergence={k: np.asarray(v, dtype=float) for k, v in counts.running.items()},
+        record=dict(record or {}),
+        nominal_note=nominal_note,
+        dry_basis_note=dry_note,
+        dry_total_m=dry_total,
+        histograms=dict(counts.hist),
+        percentile_error_m=STREAM_BIN_M,
+    )
 
 
 def _nominal_values(scenario: Scenario, problem: Problem) -> tuple[dict[str, float], str]:

@@ -22,7 +22,6 @@ from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy import stats
 
 from landrisk.uq.stats import Percentile, _order_statistic_indices
 
@@ -45,13 +44,15 @@ def chunk_seeds(seed: int, m: int) -> list[np.random.SeedSequence]:
 
 @dataclass(frozen=True)
 class Histogram:
-    """Counts of values in bins [k w, (k + 1) w), k = 0 .. len(counts) - 1; values at or above the last
-    edge (and infinite or NaN values) are counted in ``overflow``, negative ones in ``underflow``."""
+    """Counts of values in bins [k w, (k + 1) w), k = 0 .. len(counts) - 1; finite values at or above the
+    last edge (and NaN values) are counted in ``overflow``, +inf values (outcomes beyond every finite
+    threshold, such as a landing that cannot stop) in ``infinite``, negative ones in ``underflow``."""
 
     width: float
     counts: NDArray[np.int64]
     underflow: int = 0
     overflow: int = 0
+    infinite: int = 0
 
     @classmethod
     def of(cls, x: ArrayLike, width: float, bins: int) -> Histogram:
@@ -62,34 +63,40 @@ class Histogram:
         idx = np.floor(xs[finite & (xs >= 0)] / width)
         inside = idx < bins
         counts = np.bincount(idx[inside].astype(np.int64), minlength=bins).astype(np.int64)
-        over = int(np.count_nonzero(~finite) + np.count_nonzero(~inside))
-        return cls(width, counts, under, over)
+        infinite = int(np.count_nonzero(np.isposinf(xs)))
+        over = int(np.count_nonzero(~finite) - infinite + np.count_nonzero(~inside))
+        return cls(width, counts, under, over, infinite)
 
     @property
     def n(self) -> int:
         """Number of values counted."""
-        return int(self.counts.sum()) + self.underflow + self.overflow
+        return int(self.counts.sum()) + self.underflow + self.overflow + self.infinite
 
     def merge(self, other: Histogram) -> Histogram:
         """The histogram of both samples (exact: counts add)."""
         if other.width != self.width or other.counts.size != self.counts.size:
             raise ValueError("histograms with different bins cannot be merged")
         return Histogram(self.width, self.counts + other.counts, self.underflow + other.underflow,
-                         self.overflow + other.overflow)
+                         self.overflow + other.overflow, self.infinite + other.infinite)
 
-    def _value_of_rank(self, r: int) -> float | None:
-        """Midpoint of the bin holding the 0-based order statistic r (None outside the bins)."""
+    def _value_of_rank(self, r: int, cum: NDArray[np.int64] | None = None) -> float | None:
+        """Midpoint of the bin holding the 0-based order statistic r: +inf among the infinite values,
+        None below the first bin or among the finite values beyond the last."""
         r -= self.underflow
         if r < 0:
             return None
-        cum = np.cumsum(self.counts)
+        cum = np.cumsum(self.counts) if cum is None else cum
         b = int(np.searchsorted(cum, r, side="right"))
-        return None if b >= self.counts.size else (b + 0.5) * self.width
+        if b < self.counts.size:
+            return (b + 0.5) * self.width
+        return np.inf if r - int(cum[-1]) >= self.overflow else None
 
     def percentiles(self, ps: ArrayLike, conf: float = 0.95) -> list[Percentile]:
         """Percentiles (in percent) within one bin width of the sample's, with order-statistic intervals
-        widened to the edges of the bins that hold the bounding order statistics."""
+        widened to the edges of the bins that hold the bounding order statistics. A percentile among the
+        infinite values is infinite (flagged, as by :func:`landrisk.uq.percentiles`)."""
         n = self.n
+        cum = np.cumsum(self.counts)
         out = []
         for p in np.atleast_1d(np.asarray(ps, dtype=float)):
             q = p / 100.0
@@ -100,16 +107,27 @@ class Histogram:
             h = (n - 1) * q
             a = math.floor(h)
             b = min(a + 1, n - 1)
-            va, vb = self._value_of_rank(a), self._value_of_rank(b)
-            lo = self._value_of_rank(lo_i) if lo_i >= 0 else None
-            hi = self._value_of_rank(hi_i) if hi_i < n else None
+            va, vb = self._value_of_rank(a, cum), self._value_of_rank(b, cum)
+            lo = self._value_of_rank(lo_i, cum) if lo_i >= 0 else None
+            hi = self._value_of_rank(hi_i, cum) if hi_i < n else None
             if va is None or vb is None or lo is None or hi is None:
                 out.append(Percentile(float(p), None, None, None, False))
                 continue
-            value = va + (h - a) * (vb - va)
+            value = va if (h == a or va == vb) else va + (h - a) * (vb - va)
             half = self.width / 2
-            out.append(Percentile(float(p), value, lo - half, hi + half, True))
+            finite = math.isfinite(value)
+            out.append(Percentile(float(p), value if finite else None,
+                                  (lo - half) if math.isfinite(lo) else None,
+                                  (hi + half) if math.isfinite(hi) else None, True, not finite,
+                                  not math.isfinite(hi)))
         return out
+
+    def exceedance(self, x: ArrayLike) -> tuple[NDArray[np.float64], NDArray[np.int64]]:
+        """The bin edges nearest above ``x`` and the count of values at or above each (the count above
+        a value is known only at bin edges)."""
+        k = np.clip(np.ceil(np.asarray(x, dtype=float) / self.width), 0, self.counts.size).astype(np.int64)
+        tail = np.concatenate([np.cumsum(self.counts[::-1])[::-1], [0]]) + self.overflow + self.infinite
+        return (k * self.width).astype(float), tail[k].astype(np.int64)
 
 
 @dataclass(frozen=True)
@@ -198,6 +216,8 @@ def paired_comparison(c: PairedCounts, conf: float = 0.95) -> PairedComparison:
     n = c.n
     if n < 2:
         raise ValueError("a paired comparison needs at least 2 samples")
+    from scipy import stats  # only here: scipy.stats is slow to import
+
     z = float(stats.norm.ppf(0.5 + conf / 2))
     pb, pa = c.base_events / n, c.alt_events / n
     diff = pa - pb

@@ -29,6 +29,7 @@ __all__ = [
     "EventProbability",
     "Moments",
     "Percentile",
+    "RunningMoments",
     "convergence",
     "event_probability",
     "exceedance_curve",
@@ -224,6 +225,53 @@ def mean_interval(x: ArrayLike, conf: float = 0.95) -> Moments:
     sd = float(used.std(ddof=1))
     half = float(special.ndtri(0.5 + conf / 2) * sd / np.sqrt(n))
     return Moments(mean, sd, mean - half, mean + half, n, excluded)
+
+
+class RunningMoments:
+    """The mean, standard deviation and interval of :func:`mean_interval`, accumulated chunk by chunk.
+
+    Sums of the deviations from a shift (the first chunk's mean of its finite values) keep the variance
+    free of the cancellation of sum x^2 - n mean^2 (Chan, Golub & LeVeque, "Algorithms for computing the
+    sample variance", The American Statistician 37, 1983). Infinite values are counted and left out, as
+    by :func:`mean_interval`; NaN is refused.
+    """
+
+    def __init__(self) -> None:
+        self.used = 0
+        self.excluded = 0
+        self.shift = 0.0
+        self.s1 = 0.0
+        self.s2 = 0.0
+
+    def add(self, x: ArrayLike) -> None:
+        """Take the values ``x`` into the sums."""
+        xs = np.asarray(x, dtype=float)
+        if np.any(np.isnan(xs)):
+            raise ValueError("RunningMoments: the sample holds NaN")
+        finite = np.isfinite(xs)
+        used = xs if finite.all() else xs[finite]
+        if used.size == 0:
+            self.excluded += xs.size
+            return
+        if self.used == 0:
+            self.shift = float(used.mean())
+        d = used - self.shift
+        self.s1 += float(d.sum())
+        self.s2 += float(np.dot(d, d))
+        self.used += int(used.size)
+        self.excluded += int(xs.size - used.size)
+
+    def moments(self, conf: float = 0.95) -> Moments:
+        """The :class:`Moments` of the values taken so far."""
+        n = self.used
+        if n == 0:
+            return Moments(None, None, None, None, 0, self.excluded)
+        mean = self.shift + self.s1 / n
+        if n < 2:
+            return Moments(mean, None, None, None, n, self.excluded)
+        sd = float(np.sqrt(max(self.s2 - self.s1 * self.s1 / n, 0.0) / (n - 1)))
+        half = float(special.ndtri(0.5 + conf / 2) * sd / np.sqrt(n))
+        return Moments(mean, sd, mean - half, mean + half, n, self.excluded)
 
 
 def wilson_interval(
