@@ -211,9 +211,10 @@ class _Chunk:
 
 
 def _mc_case(scenario: Scenario, problem: Problem, s: StudySettings) -> _MCSummary:
-    """A whole case by :func:`assess` (identical to a single assessment with the same seed)."""
+    """A whole case by :func:`assess` (identical to a single assessment with the same seed, its outputs
+    kept whatever their number: ``split`` bounds the memory)."""
     a = assess(scenario, problem, AssessSettings(samples=s.samples, seed=s.seed, chunk=s.chunk,
-                                                 confidence=s.confidence))
+                                                 confidence=s.confidence, stream_above=s.samples))
     return _MCSummary(a.p_overrun.events, a.p_beyond_resa.events, s.samples,
                       tuple(a.percentiles["total_m"]), True, 1)
 
