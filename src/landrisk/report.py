@@ -212,8 +212,8 @@ def _distance_rows(a: Assessment, sh: _Show, conf: str) -> list[str]:
             lines.append(f"  {_pct_label(p.p):<44}{'needs more samples':>{pad}}")
     if a.streamed:
         err = f"{sh.du.length(a.percentile_error_m):.3g} {sh.lu}"
-        lines.append(f"  (streamed: the {a.n:,} distances were counted in bins of {err}, not kept; the "
-                     f"percentiles and their intervals are within {err} of the sample's)")
+        lines.append(f"  (streamed: the {a.n:,} distances were counted in bins of {err}, not kept;")
+        lines.append(f"   the percentiles and their intervals are within {err} of the sample's)")
     return lines
 
 
