@@ -1033,8 +1033,7 @@ def _overrun_speeds(c: LandingCase, r: dict[str, NDArray], method: str) -> Array
     air, x_free, brake = r["air_distance_m"], r["free_roll_m"], r["braking_m"]
     n = air.size
     f = _forces(c, n)
-    w, braking_mu, rolling_mu, lda = (np.broadcast_to(x, (n,)) for x in (c.headwind, c.braking_mu,
-                                                                         c.rolling_mu, c.lda))
+    w, braking_mu, rolling_mu, lda = (_full(x, n) for x in (c.headwind, c.braking_mu, c.rolling_mu, c.lda))
     v_b, v_td = r["brake_speed"], r["touchdown_speed"]
     out = np.zeros(n)
     excess = air + x_free + brake - lda  # distance still to go at the runway end

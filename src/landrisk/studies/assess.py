@@ -299,7 +299,9 @@ def assess(
     sorted_total = np.sort(out["total_m"])
     pct = {"total_m": percentiles(sorted_total, PERCENTILES, conf, presorted=True)}
     moments = {"total_m": mean_interval(sorted_total, conf)}
-    comparisons = _comparisons(sorted_total, conf, nominal_total, dry_total, dry_note, lda)
+    lines = _comparison_lines(nominal_total, dry_total, dry_note)
+    comparisons = _comparisons(lines, [int(n - np.searchsorted(sorted_total, line[3], side="right"))
+                                       for line in lines], n, conf, lda)
     running = convergence(out["total_m"], overrun, 0.99, conf=conf, sorted_x=sorted_total)
     del sorted_total
     for name in PHASES:
@@ -319,9 +321,7 @@ def assess(
         p_overrun=event_probability(int(overrun.sum()), n, conf),
         p_beyond_resa=event_probability(int(beyond.sum()), n, conf),
         resa_length_m=resa,
-        overrun_speed=percentiles(speeds, (50.0, 90.0, 99.0), conf, presorted=True) if speeds.size else [],
-        overrun_speed_min=float(speeds[0]) if speeds.size else None,
-        overrun_speed_max=float(speeds[-1]) if speeds.size else None,
+        **_speed_fields(speeds, conf),
         comparisons=comparisons,
         nominal_total_m=nominal_total,
         flags={"lift_exceeds_weight": int(out["lift_exceeds_weight"].sum()),
@@ -348,14 +348,20 @@ def _comparison_lines(nominal_total: float, dry_total: float,
     return lines
 
 
-def _comparisons(sorted_total: NDArray[np.float64], conf: float, nominal_total: float, dry_total: float,
-                 dry_note: str, lda: float) -> list[ComparisonLine]:
-    """The comparison lines and the probability that the Monte Carlo distance exceeds each."""
-    n = sorted_total.size
-    return [ComparisonLine(name, factor, source, line,
-                           event_probability(int(n - np.searchsorted(sorted_total, line, side="right")), n,
-                                             conf), basis=basis, lda_m=lda)
-            for name, factor, source, line, basis in _comparison_lines(nominal_total, dry_total, dry_note)]
+def _comparisons(lines: list[tuple[str, float, str, float, str]], exceed: list[int], n: int, conf: float,
+                 lda: float) -> list[ComparisonLine]:
+    """The comparison lines of :func:`_comparison_lines`, each with the probability that the Monte Carlo
+    distance exceeds it (``exceed`` of the ``n`` samples did)."""
+    return [ComparisonLine(name, factor, source, line, event_probability(k, n, conf), basis=basis, lda_m=lda)
+            for (name, factor, source, line, basis), k in zip(lines, exceed, strict=True)]
+
+
+def _speed_fields(speeds: NDArray[np.float64], conf: float) -> dict[str, Any]:
+    """The overruns' ground speeds at the runway end (ascending) as the result's three fields."""
+    return {"overrun_speed": percentiles(speeds, (50.0, 90.0, 99.0), conf, presorted=True) if speeds.size
+            else [],
+            "overrun_speed_min": float(speeds[0]) if speeds.size else None,
+            "overrun_speed_max": float(speeds[-1]) if speeds.size else None}
 
 
 class _Counts:
@@ -365,9 +371,9 @@ class _Counts:
         from landrisk.uq.chunked import Histogram  # only a streamed run needs it
 
         bins = round(STREAM_RANGE_M / STREAM_BIN_M)
-        self.empty = Histogram(STREAM_BIN_M, np.zeros(bins, dtype=np.int64))
+        empty = Histogram(STREAM_BIN_M, np.zeros(bins, dtype=np.int64))
         self.of = lambda x: Histogram.of(x, STREAM_BIN_M, bins)
-        self.hist = {name: self.empty for name in PHASES}
+        self.hist = {name: empty for name in PHASES}
         self.moments = {name: RunningMoments() for name in PHASES}
         self.resa, self.lines, self.conf = resa, lines, conf
         self.done = self.overruns = self.beyond = self.lifted = self.cannot = 0
@@ -443,12 +449,8 @@ def _assess_streamed(
         p_overrun=event_probability(counts.overruns, n, conf),
         p_beyond_resa=event_probability(counts.beyond, n, conf),
         resa_length_m=resa,
-        overrun_speed=percentiles(speeds, (50.0, 90.0, 99.0), conf, presorted=True) if speeds.size else [],
-        overrun_speed_min=float(speeds[0]) if speeds.size else None,
-        overrun_speed_max=float(speeds[-1]) if speeds.size else None,
-        comparisons=[ComparisonLine(name, factor, source, line, event_probability(k, n, conf), basis=basis,
-                                    lda_m=lda)
-                     for (name, factor, source, line, basis), k in zip(lines, counts.exceed, strict=True)],
+        **_speed_fields(speeds, conf),
+        comparisons=_comparisons(lines, counts.exceed, n, conf, lda),
         nominal_total_m=nominal_total,
         flags={"lift_exceeds_weight": counts.lifted, "cannot_stop": counts.cannot},
         convergence={k: np.asarray(v, dtype=float) for k, v in counts.running.items()},

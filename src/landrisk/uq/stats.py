@@ -222,7 +222,11 @@ def mean_interval(x: ArrayLike, conf: float = 0.95) -> Moments:
     mean = float(used.mean())
     if n < 2:
         return Moments(mean, None, None, None, n, excluded)
-    sd = float(used.std(ddof=1))
+    return _moments(mean, float(used.std(ddof=1)), n, excluded, conf)
+
+
+def _moments(mean: float, sd: float, n: int, excluded: int, conf: float) -> Moments:
+    """Mean, sd and the normal-approximation ``conf`` interval of the mean of n values."""
     half = float(special.ndtri(0.5 + conf / 2) * sd / np.sqrt(n))
     return Moments(mean, sd, mean - half, mean + half, n, excluded)
 
@@ -270,8 +274,7 @@ class RunningMoments:
         if n < 2:
             return Moments(mean, None, None, None, n, self.excluded)
         sd = float(np.sqrt(max(self.s2 - self.s1 * self.s1 / n, 0.0) / (n - 1)))
-        half = float(special.ndtri(0.5 + conf / 2) * sd / np.sqrt(n))
-        return Moments(mean, sd, mean - half, mean + half, n, self.excluded)
+        return _moments(mean, sd, n, self.excluded, conf)
 
 
 def wilson_interval(
